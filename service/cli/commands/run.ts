@@ -1,0 +1,66 @@
+import { daysBetween } from '../../config/definitions.js';
+import { judgeFlows, rollupRange, runDay } from '../../pipeline/run-day.js';
+import type { Runtime } from '../../runtime.js';
+import { dayBounds } from '../../warehouse/queries.js';
+import { EXIT, ExitError } from '../exit-codes.js';
+import { Progress } from '../progress.js';
+import { formatSummary, loadSummary } from '../summary.js';
+
+export interface RunCommandOptions {
+  date?: string;
+  from?: string;
+  to?: string;
+  now?: string;
+  json?: boolean;
+  days?: number;
+}
+
+/**
+ * The clock a day is judged by when it is replayed: the moment the daily run
+ * would have judged it (local midnight after the day, plus the settle time).
+ */
+export async function replayClock(rt: Runtime, day: string): Promise<Date> {
+  const { rows } = await rt.warehouse.query<{ hi: Date }>(dayBounds(day, rt.timezone));
+  return new Date(rows[0]!.hi.getTime() + rt.config.main.judging.settle_time * 1000);
+}
+
+/** Rolls up every day of the range (in parallel), then judges them in order so baselines build up. */
+export async function runRange(rt: Runtime, from: string, to: string, options: { json?: boolean; judgeFrom?: string }): Promise<void> {
+  const days = daysBetween(from, to);
+  const rollups = new Progress('rollup', !options.json);
+  await rollupRange(rt, days, { onProgress: (done, total, label) => rollups.update(done, total, label) });
+  const judged = days.filter((day) => day >= (options.judgeFrom ?? from));
+  const judging = new Progress('judge ', !options.json);
+  let done = 0;
+  for (const day of judged) {
+    await judgeFlows(rt, day, { now: await replayClock(rt, day) });
+    judging.update(++done, judged.length, day);
+  }
+}
+
+export async function runCommand(rt: Runtime, options: RunCommandOptions): Promise<number> {
+  const valid = (day: string | undefined) => day === undefined || /^\d{4}-\d{2}-\d{2}$/.test(day);
+  if (!valid(options.date) || !valid(options.from) || !valid(options.to)) throw new ExitError(EXIT.usage, 'dates are written YYYY-MM-DD');
+  let from: string;
+  let to: string;
+  if (options.date) {
+    if (options.from || options.to) throw new ExitError(EXIT.usage, 'use either --date or --from/--to');
+    const now = options.now ? new Date(options.now) : new Date();
+    if (Number.isNaN(now.getTime())) throw new ExitError(EXIT.usage, '--now must be an ISO timestamp');
+    await runDay(rt, options.date, { now });
+    from = options.date;
+    to = options.date;
+  } else if (options.from && options.to) {
+    if (options.from > options.to) throw new ExitError(EXIT.usage, '--from must be on or before --to');
+    from = options.from;
+    to = options.to;
+    await runRange(rt, from, to, { json: options.json ?? false });
+  } else {
+    throw new ExitError(EXIT.usage, 'give --date D, or --from D1 --to D2');
+  }
+  const summary = await loadSummary(rt, from, to);
+  if (options.json) console.log(JSON.stringify(summary, null, 2));
+  else console.log(formatSummary(rt, summary, options.days ?? 14));
+  return EXIT.ok;
+}
+

@@ -1,0 +1,60 @@
+/**
+ * Judging one flow on one day: the same pure core serves live runs and
+ * backtests, so a replay over stored rollups gives exactly what a live run gave.
+ */
+import { registry } from '../../checks/registry.js';
+import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../../checks/types.js';
+import type { FlowConfig } from '../config/schema.js';
+
+export interface Judgement {
+  verdict: 'judged' | 'not_ready';
+  reason?: string;
+  findings: Finding[];
+  /** Checks that failed with an error: counted and logged by the caller, never silent. */
+  errors: Array<{ check: string; error: Error }>;
+}
+
+type Options = WithPlatforms<Record<string, unknown>> & { enabled: boolean };
+
+export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly CheckModule[] = registry): Judgement {
+  const errors: Judgement['errors'] = [];
+  const active = checks
+    .map((check) => ({ check, options: flow.checks[check.id] as Options | undefined }))
+    .filter((entry): entry is { check: CheckModule; options: Options } => entry.options?.enabled === true);
+
+  let verdict: Judgement['verdict'] = 'judged';
+  let reason: string | undefined;
+  for (const { check, options } of active) {
+    if (!check.gate) continue;
+    try {
+      const readiness = check.gate(input, options);
+      if (!readiness.ready) {
+        verdict = 'not_ready';
+        reason = readiness.reason ?? `${check.id} holds the day back`;
+      }
+    } catch (error) {
+      errors.push({ check: check.id, error: error as Error });
+    }
+  }
+
+  const findings: Finding[] = [];
+  for (const { check, options } of active) {
+    if (verdict === 'not_ready' && !check.gate) continue;
+    try {
+      findings.push(...check.run(input, options));
+    } catch (error) {
+      errors.push({ check: check.id, error: error as Error });
+    }
+  }
+  for (const finding of findings) {
+    const mute = flow.mutes.find(
+      (m) =>
+        m.check === finding.check &&
+        input.day <= m.until &&
+        (m.platform === undefined || m.platform === finding.platform) &&
+        (m.subject === undefined || m.subject === finding.subject.name || m.subject === finding.subject.event),
+    );
+    if (mute) finding.muted = mute.reason;
+  }
+  return { verdict, ...(reason !== undefined ? { reason } : {}), findings, errors };
+}

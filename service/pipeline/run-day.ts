@@ -1,0 +1,148 @@
+import { addDays } from '../config/definitions.js';
+import { quoteIdent } from '../db/sql.js';
+import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
+import type { Runtime } from '../runtime.js';
+import { storeJudgement } from '../state/findings.js';
+import { dayBounds, restatementProbeQuery } from '../warehouse/queries.js';
+import { loadAnomalousDays, loadHistory, sliceInput } from './history.js';
+import { judgeDay, type Judgement } from './judge.js';
+
+export interface FlowJudgement extends Judgement {
+  flow: string;
+  day: string;
+}
+
+export interface RunOptions {
+  /** The run's clock; checks never read the real one. */
+  now: Date;
+  onProgress?: (done: number, total: number, label: string) => void;
+}
+
+export function rollupContext(rt: Runtime) {
+  return {
+    warehouse: rt.warehouse,
+    state: rt.state,
+    stateSchema: rt.stateSchema,
+    mapping: rt.mapping,
+    timezone: rt.timezone,
+    flows: rt.flows,
+    workMem: rt.config.main.warehouse.work_mem,
+  };
+}
+
+/** Rolls up a range of days, two at a time (one per core of a small machine). */
+export async function rollupRange(rt: Runtime, days: string[], options: Pick<RunOptions, 'onProgress'> = {}): Promise<RollupResult[]> {
+  const results: RollupResult[] = [];
+  const queue = [...days];
+  const ctx = rollupContext(rt);
+  const worker = async () => {
+    for (let day = queue.shift(); day !== undefined; day = queue.shift()) {
+      results.push(await recordRun(rt, 'rollup', day, null, () => rollupDay(ctx, day)));
+      options.onProgress?.(results.length, days.length, `rolled up ${day}`);
+    }
+  };
+  await Promise.all([worker(), worker()]);
+  return results.sort((a, b) => a.day.localeCompare(b.day));
+}
+
+/**
+ * Re-counts the recent past days per platform and rolls up again those whose
+ * counts changed since their rollup (late rows), so baselines see the truth.
+ */
+export async function probeRestatements(rt: Runtime, day: string): Promise<string[]> {
+  const lookback = rt.config.main.judging.restatement_days;
+  if (lookback === 0) return [];
+  const days: Array<{ day: string; lo: Date; hi: Date }> = [];
+  for (let i = lookback; i >= 1; i--) {
+    const past = addDays(day, -i);
+    const { rows } = await rt.warehouse.query<{ lo: Date; hi: Date }>(dayBounds(past, rt.timezone));
+    days.push({ day: past, ...rows[0]! });
+  }
+  const { rows: counts } = await rt.warehouse.query<{ day: string; platform: string; events: string }>(restatementProbeQuery(rt.mapping, days));
+  const { rows: known } = await rt.state.query<{ day: string; platform: string; events: string }>({
+    text: `select to_char(day, 'YYYY-MM-DD') as day, platform, events from ${quoteIdent(rt.stateSchema)}.day_status where day >= $1 and day < $2`,
+    values: [days[0]!.day, day],
+  });
+  const key = (row: { day: string; platform: string }) => `${row.day}|${row.platform}`;
+  const before = new Map(known.map((row) => [key(row), Number(row.events)]));
+  const now = new Map(counts.map((row) => [key(row), Number(row.events)]));
+  const changed = new Set<string>();
+  for (const k of new Set([...before.keys(), ...now.keys()])) {
+    const [pastDay] = k.split('|');
+    // A day never rolled up is not a restatement; backfills handle it.
+    if (!known.some((row) => row.day === pastDay)) continue;
+    if ((before.get(k) ?? 0) !== (now.get(k) ?? 0)) changed.add(pastDay!);
+  }
+  const restated = [...changed].sort();
+  if (restated.length > 0) {
+    rt.log.warn({ days: restated }, 'late rows changed already rolled-up days: rolling them up again');
+    await rollupRange(rt, restated);
+  }
+  return restated;
+}
+
+/** Judges every flow on `day` from the stored rollups and stores the findings. */
+export async function judgeFlows(rt: Runtime, day: string, options: RunOptions): Promise<FlowJudgement[]> {
+  const historyDays = rt.config.main.judging.history_days;
+  const from = addDays(day, -(historyDays - 1));
+  const results: FlowJudgement[] = [];
+  for (const { config } of rt.config.flows) {
+    const flow = rt.flows.find((f) => f.id === config.flow)!;
+    const judgement = await recordRun(rt, 'judge', day, flow.id, async () => {
+      const calendar = [...rt.config.main.calendar, ...config.calendar];
+      const history = await loadHistory(rt.state, rt.stateSchema, flow, calendar, from, day);
+      const anomalous = await loadAnomalousDays(rt.state, rt.stateSchema, flow.id, from, day);
+      const input = sliceInput(history, day, historyDays, anomalous, options.now.toISOString(), rt.timezone);
+      const result = judgeDay(input, config);
+      for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
+      const client = await rt.state.connect();
+      try {
+        await client.query('begin');
+        await storeJudgement(client, rt.stateSchema, flow.id, day, result.verdict, result.reason, result.findings);
+        await client.query('commit');
+      } catch (error) {
+        await client.query('rollback');
+        throw error;
+      } finally {
+        client.release();
+      }
+      return result;
+    });
+    results.push({ flow: flow.id, day, ...judgement });
+  }
+  return results;
+}
+
+/** The daily run for one business day: late-row probe, rollup, judgement. */
+export async function runDay(rt: Runtime, day: string, options: RunOptions): Promise<{ restated: string[]; rollup: RollupResult; judgements: FlowJudgement[] }> {
+  const restated = await probeRestatements(rt, day);
+  const [rollup] = await rollupRange(rt, [day]);
+  const judgements = await judgeFlows(rt, day, options);
+  return { restated, rollup: rollup!, judgements };
+}
+
+/** Records a unit of work in `runs`; a failure is stored and rethrown, never swallowed. */
+async function recordRun<T>(rt: Runtime, kind: 'rollup' | 'judge', day: string, flow: string | null, work: () => Promise<T>): Promise<T> {
+  const s = quoteIdent(rt.stateSchema);
+  const { rows } = await rt.state.query<{ id: string }>({
+    text: `insert into ${s}.runs (kind, day, flow, status, runner) values ($1, $2, $3, 'running', $4) returning id`,
+    values: [kind, day, flow, runnerName()],
+  });
+  const id = rows[0]!.id;
+  try {
+    const result = await work();
+    await rt.state.query({ text: `update ${s}.runs set status = 'done', finished_at = now() where id = $1`, values: [id] });
+    return result;
+  } catch (error) {
+    await rt.state.query({
+      text: `update ${s}.runs set status = 'failed', finished_at = now(), error = $2 where id = $1`,
+      values: [id, (error as Error).message],
+    });
+    rt.log.error({ err: error, kind, day, flow }, 'run failed');
+    throw error;
+  }
+}
+
+export function runnerName(): string {
+  return `${process.env.HOSTNAME ?? 'local'}:${process.pid}`;
+}

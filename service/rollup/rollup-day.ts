@@ -1,0 +1,206 @@
+import type pg from 'pg';
+import type { FlowDefinition, FunnelDayRow } from '../../checks/types.js';
+import type { Query } from '../db/sql.js';
+import {
+  deleteDay,
+  deleteFunnelDay,
+  deleteStatusExcept,
+  insertEventDays,
+  insertFunnelDays,
+  insertParamDays,
+  untrackedKeysQuery,
+  upsertDayStatus,
+  type ParamRowToWrite,
+} from '../state/rollups.js';
+import {
+  LOW_CARDINALITY,
+  dayBounds,
+  dayStatusQuery,
+  eventCountsQuery,
+  funnelQuery,
+  paramProfileQuery,
+  type WarehouseMapping,
+} from '../warehouse/queries.js';
+
+export interface RollupContext {
+  warehouse: pg.Pool;
+  state: pg.Pool;
+  stateSchema: string;
+  mapping: WarehouseMapping;
+  timezone: string;
+  flows: FlowDefinition[];
+  /** PostgreSQL work_mem for the rollup statements, e.g. '256MB'. */
+  workMem: string;
+}
+
+export interface RollupResult {
+  day: string;
+  events: number;
+  eventRows: number;
+  paramRows: number;
+  funnelRows: number;
+  millis: number;
+}
+
+/** Days of param history consulted to know which keys have too many values to profile. */
+const UNTRACKED_LOOKBACK_DAYS = 14;
+
+/**
+ * Rolls up business day `day` from the warehouse into the state schema: event
+ * counts, parameter profiles, every flow's funnel and the day's status. The
+ * warehouse statements run side by side on separate connections; the state is
+ * replaced in one transaction, so a rerun of a day replaces it exactly.
+ */
+export async function rollupDay(ctx: RollupContext, day: string): Promise<RollupResult> {
+  const started = performance.now();
+  const { rows: boundRows } = await ctx.warehouse.query<{ lo: Date; hi: Date }>(dayBounds(day, ctx.timezone));
+  const { lo, hi } = boundRows[0]!;
+  const { rows: untracked } = await ctx.state.query<{ key: string }>(
+    untrackedKeysQuery(ctx.stateSchema, day, UNTRACKED_LOOKBACK_DAYS, LOW_CARDINALITY),
+  );
+  const watched = [...new Set(ctx.flows.flatMap((flow) => flow.events))];
+
+  const [counts, status, params, ...funnels] = await Promise.all([
+    readWarehouse<CountRow>(ctx, eventCountsQuery(ctx.mapping, lo, hi)),
+    readWarehouse<StatusRow>(ctx, dayStatusQuery(ctx.mapping, lo, hi)),
+    readWarehouse<ParamRow>(ctx, paramProfileQuery(ctx.mapping, lo, hi, watched, untracked.map((row) => row.key))),
+    ...ctx.flows.map((flow) => readWarehouse<FunnelRow>(ctx, funnelQuery(ctx.mapping, flow, lo, hi))),
+  ]);
+
+  const hours = Math.round((hi.getTime() - lo.getTime()) / 3_600_000);
+  const statusRows = summariseStatus(status, hours);
+  const paramRows: ParamRowToWrite[] = params.map((row) => ({
+    event: row.event,
+    platform: row.platform,
+    version: row.version,
+    key: row.key,
+    jsonType: row.json_type,
+    events: Number(row.events),
+    distinctValues: row.distinct_values,
+    topValues: row.top_values.map((top) => ({ value: top.value, events: Number(top.events) })),
+  }));
+  const funnelRows = ctx.flows.flatMap((flow, index) => unpivotFunnel(flow.id, funnels[index]!));
+
+  const client = await ctx.state.connect();
+  try {
+    await client.query('begin');
+    await client.query(deleteDay(ctx.stateSchema, 'event_days', day));
+    await client.query(
+      insertEventDays(
+        ctx.stateSchema,
+        day,
+        counts.map((row) => ({ ...row, events: Number(row.events), people: Number(row.people) })),
+      ),
+    );
+    await client.query(deleteDay(ctx.stateSchema, 'param_days', day));
+    await client.query(insertParamDays(ctx.stateSchema, day, paramRows));
+    for (const flow of ctx.flows) await client.query(deleteFunnelDay(ctx.stateSchema, day, flow.id));
+    await client.query(insertFunnelDays(ctx.stateSchema, day, funnelRows));
+    await client.query(upsertDayStatus(ctx.stateSchema, day, statusRows));
+    await client.query(deleteStatusExcept(ctx.stateSchema, day, statusRows.map((row) => row.platform)));
+    await client.query('commit');
+  } catch (error) {
+    await client.query('rollback');
+    throw error;
+  } finally {
+    client.release();
+  }
+  return {
+    day,
+    events: statusRows.reduce((sum, row) => sum + row.events, 0),
+    eventRows: counts.length,
+    paramRows: paramRows.length,
+    funnelRows: funnelRows.length,
+    millis: performance.now() - started,
+  };
+}
+
+/** Runs one read-only statement with the rollup's memory setting. */
+async function readWarehouse<Row extends pg.QueryResultRow>(ctx: RollupContext, query: Query): Promise<Row[]> {
+  const client = await ctx.warehouse.connect();
+  try {
+    await client.query('begin read only');
+    // JIT compilation of these wide expressions costs seconds and saves nothing on one pass over a day.
+    await client.query({ text: `select set_config('work_mem', $1, true), set_config('jit', 'off', true)`, values: [ctx.workMem] });
+    const { rows } = await client.query<Row>(query);
+    await client.query('commit');
+    return rows;
+  } catch (error) {
+    await client.query('rollback').catch(() => undefined);
+    throw error;
+  } finally {
+    client.release();
+  }
+}
+
+interface CountRow {
+  event: string;
+  platform: string;
+  version: string;
+  dimension: string;
+  value: string;
+  events: string;
+  people: string;
+}
+interface StatusRow {
+  platform: string;
+  hour: number;
+  events: string;
+  newest_at: Date;
+}
+interface ParamRow {
+  event: string;
+  platform: string;
+  version: string;
+  key: string;
+  json_type: string;
+  events: string;
+  distinct_values: number | null;
+  top_values: Array<{ value: string; events: number }>;
+}
+interface FunnelRow {
+  platform: string;
+  version: string;
+  dimension: string;
+  value: string;
+  entered: string[];
+  reached: string[];
+  seconds_median: Array<number | null>;
+  seconds_p90: Array<number | null>;
+  timed: string[];
+}
+
+function summariseStatus(rows: StatusRow[], hours: number) {
+  const byPlatform = new Map<string, { platform: string; events: number; newestAt: string | null; hourly: number[] }>();
+  for (const row of rows) {
+    let entry = byPlatform.get(row.platform);
+    if (!entry) {
+      entry = { platform: row.platform, events: 0, newestAt: null, hourly: new Array<number>(hours).fill(0) };
+      byPlatform.set(row.platform, entry);
+    }
+    const events = Number(row.events);
+    entry.events += events;
+    entry.hourly[row.hour] = (entry.hourly[row.hour] ?? 0) + events;
+    const newest = row.newest_at.toISOString();
+    if (entry.newestAt === null || newest > entry.newestAt) entry.newestAt = newest;
+  }
+  return [...byPlatform.values()];
+}
+
+function unpivotFunnel(flow: string, rows: FunnelRow[]): Omit<FunnelDayRow, 'day'>[] {
+  return rows.flatMap((row) =>
+    row.reached.map((reached, step) => ({
+      flow,
+      platform: row.platform,
+      version: row.version,
+      dimension: row.dimension,
+      value: row.value,
+      step,
+      entered: Number(row.entered[step]),
+      reached: Number(reached),
+      secondsMedian: row.seconds_median[step] ?? null,
+      secondsP90: row.seconds_p90[step] ?? null,
+      timed: Number(row.timed[step]),
+    })),
+  );
+}

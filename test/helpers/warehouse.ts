@@ -1,0 +1,53 @@
+import type pg from 'pg';
+import { quoteIdent } from '../../service/db/sql.js';
+import type { WarehouseMapping } from '../../service/warehouse/queries.js';
+
+/** A raw row of a team's events table, as the tests write it. */
+export interface RawEvent {
+  at: Date;
+  name: string;
+  user: string | null;
+  device: string | null;
+  platform: string;
+  version: string | null;
+  props: Record<string, unknown> | null;
+  country?: string | null;
+  channel?: string | null;
+}
+
+export const TEST_PLATFORMS: Record<string, string[]> = { web: ['web', 'Web'], android: ['Android'], ios: ['iOS'] };
+
+export function testMapping(schema: string): WarehouseMapping {
+  return {
+    table: `${schema}.events`,
+    columns: { time: 'occurred_at', name: 'event_name', user: 'user_id', device: 'device_id', platform: 'platform', version: 'app_version', params: 'props' },
+    dimensions: ['country', 'channel'],
+    platforms: TEST_PLATFORMS,
+  };
+}
+
+export async function createEventsTable(pool: pg.Pool, schema: string): Promise<void> {
+  await pool.query(`create table ${quoteIdent(schema)}.events (
+    occurred_at timestamptz not null, event_name text not null, user_id text, device_id text,
+    platform text, app_version text, props jsonb, country text, channel text)`);
+  await pool.query(`create index on ${quoteIdent(schema)}.events (occurred_at)`);
+}
+
+export async function insertEvents(pool: pg.Pool, schema: string, events: RawEvent[]): Promise<void> {
+  if (events.length === 0) return;
+  await pool.query({
+    text: `insert into ${quoteIdent(schema)}.events
+      select * from unnest($1::timestamptz[], $2::text[], $3::text[], $4::text[], $5::text[], $6::text[], $7::jsonb[], $8::text[], $9::text[])`,
+    values: [
+      events.map((e) => e.at),
+      events.map((e) => e.name),
+      events.map((e) => e.user),
+      events.map((e) => e.device),
+      events.map((e) => e.platform),
+      events.map((e) => e.version),
+      events.map((e) => (e.props === null ? null : JSON.stringify(e.props))),
+      events.map((e) => e.country ?? null),
+      events.map((e) => e.channel ?? null),
+    ],
+  });
+}

@@ -1,0 +1,173 @@
+/**
+ * Property test: the SQL funnel matching equals a brute-force TypeScript
+ * reference (test/helpers/reference.ts) on random event sequences with
+ * out-of-order rows, repeats, steps past the window, user/device fallback,
+ * unmapped platforms and several platforms.
+ */
+import fc from 'fast-check';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { FlowDefinition } from '../../checks/types.js';
+import { quoteIdent } from '../../service/db/sql.js';
+import { dayBounds, eventCountsQuery, funnelQuery } from '../../service/warehouse/queries.js';
+import { createTestSchema, type TestSchema } from '../helpers/db.js';
+import { byteOrder, referenceCounts, referenceFunnel } from '../helpers/reference.js';
+import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+
+const DAY = '2026-03-10';
+const TZ = 'America/New_York';
+
+function flow(entry: FlowDefinition['entry']): FlowDefinition {
+  return {
+    id: 'pass',
+    owner: 'team',
+    steps: [
+      { name: 'intro', event: 'screen_view', where: { screen: 'intro' } },
+      { name: 'zone', event: 'screen_view', where: { screen: ['zone', 'zone_v2'] } },
+      { name: 'pay', event: 'tap_pay', where: {} },
+      { name: 'done', event: 'purchase', where: { outcome: 'approved', test: false } },
+    ],
+    // Short window and cap so random whole-minute gaps land exactly on both boundaries often.
+    conversionWindowSeconds: 600,
+    stepTimeCapSeconds: 240,
+    entry,
+    platforms: ['web', 'android', 'ios'],
+    events: ['screen_view', 'tap_pay', 'purchase'],
+    contracts: {},
+  };
+}
+
+const eventArb = fc.oneof(
+  fc.record({ name: fc.constant('screen_view'), props: fc.record({ screen: fc.constantFrom('intro', 'zone', 'zone_v2', 'home') }) }),
+  fc.record({ name: fc.constant('tap_pay'), props: fc.constant({}) }),
+  fc.record({
+    name: fc.constant('purchase'),
+    props: fc.record({ outcome: fc.constantFrom('approved', 'declined'), test: fc.boolean() }),
+  }),
+  fc.record({ name: fc.constant('app_open'), props: fc.constant(null) }),
+);
+
+/** A person's burst of events: close in time so steps match, sometimes past the window or the day. */
+const journeyArb = fc.record({
+  user: fc.option(fc.constantFrom('u1', 'u2', 'u3'), { nil: null }),
+  device: fc.option(fc.constantFrom('d1', 'd2', 'd3', 'd4'), { nil: null }),
+  platform: fc.constantFrom('web', 'Web', 'Android', 'iOS', 'kiosk'),
+  version: fc.option(fc.constantFrom('1.0', '1.1', '2.0'), { nil: null }),
+  country: fc.constantFrom('US', 'CA', 'MX'),
+  channel: fc.constantFrom('direct', 'email'),
+  // Minutes from local midnight: before the day, inside it, and into the next one.
+  startMinute: fc.integer({ min: -40, max: 24 * 60 + 20 }),
+  events: fc.array(fc.record({ event: eventArb, gapMinutes: fc.integer({ min: -2, max: 6 }), sameTime: fc.boolean() }), {
+    minLength: 1,
+    maxLength: 7,
+  }),
+});
+
+type Journey = typeof journeyArb extends fc.Arbitrary<infer T> ? T : never;
+
+function toRows(journeys: Journey[], lo: Date): RawEvent[] {
+  const rows: RawEvent[] = [];
+  for (const journey of journeys) {
+    let at = lo.getTime() + journey.startMinute * 60_000;
+    for (const { event, gapMinutes, sameTime } of journey.events) {
+      if (!sameTime) at += gapMinutes * 60_000;
+      rows.push({
+        at: new Date(at),
+        name: event.name,
+        user: journey.user,
+        device: journey.device,
+        platform: journey.platform,
+        version: journey.version,
+        props: event.props,
+        country: journey.country,
+        channel: journey.channel,
+      });
+    }
+  }
+  // Rows arrive out of order in a real table.
+  return rows.reverse();
+}
+
+function expectSameSeconds(actual: number | null | undefined, expected: number | null | undefined): void {
+  if (expected === null || expected === undefined) expect(actual ?? null).toBeNull();
+  else expect(actual).toBeCloseTo(expected, 6);
+}
+
+const sortKey = (row: { platform: string; version: string; dimension: string; value: string }) =>
+  [row.platform, row.version, row.dimension, row.value].join('|');
+
+describe('funnel matching (SQL vs brute-force reference)', () => {
+  let db: TestSchema;
+  let lo: Date;
+  let hi: Date;
+  const mapping = () => testMapping(db.schema);
+
+  beforeAll(async () => {
+    db = await createTestSchema('funnel');
+    await createEventsTable(db.pool, db.schema);
+    const { rows } = await db.pool.query<{ lo: Date; hi: Date }>(dayBounds(DAY, TZ));
+    ({ lo, hi } = rows[0]!);
+  });
+  afterAll(async () => db.drop());
+
+  for (const entry of ['first_step_only', 'any_step'] as const) {
+    it(`agrees with the reference (entry: ${entry})`, async () => {
+      const definition = flow(entry);
+      await fc.assert(
+        fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
+          const rows = toRows(journeys, lo);
+          await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
+          await insertEvents(db.pool, db.schema, rows);
+          const { rows: sql } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
+          const expected = referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi);
+          const actual = sql.map((row) => ({
+            platform: row.platform as string,
+            version: row.version as string,
+            dimension: row.dimension as string,
+            value: row.value as string,
+            entered: (row.entered as string[]).map(Number),
+            reached: (row.reached as string[]).map(Number),
+            secondsMedian: row.seconds_median as Array<number | null>,
+            secondsP90: row.seconds_p90 as Array<number | null>,
+            timed: (row.timed as string[]).map(Number),
+          }));
+          const order = (a: { platform: string }, b: { platform: string }) => byteOrder(sortKey(a as never), sortKey(b as never));
+          actual.sort(order);
+          expected.sort(order);
+          expect(actual.map(sortKey)).toEqual(expected.map(sortKey));
+          actual.forEach((row, i) => {
+            const ref = expected[i]!;
+            expect({ entered: row.entered, reached: row.reached, timed: row.timed }).toEqual({
+              entered: ref.entered,
+              reached: ref.reached,
+              timed: ref.timed,
+            });
+            row.secondsMedian.forEach((v, k) => expectSameSeconds(v, ref.secondsMedian[k]));
+            row.secondsP90.forEach((v, k) => expectSameSeconds(v, ref.secondsP90[k]));
+          });
+        }),
+        { numRuns: 60, seed: 20261201 },
+      );
+    });
+  }
+
+  it('event counts and distinct people agree with the reference', async () => {
+    await fc.assert(
+      fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
+        const rows = toRows(journeys, lo);
+        await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
+        await insertEvents(db.pool, db.schema, rows);
+        const { rows: sql } = await db.pool.query(eventCountsQuery(mapping(), lo, hi));
+        const actual = sql
+          .map((row) => ({ ...row, events: Number(row.events), people: Number(row.people) }))
+          .map(({ event, platform, version, dimension, value, events, people }) => ({ event, platform, version, dimension, value, events, people }));
+        const expected = referenceCounts(rows, mapping().platforms, mapping().dimensions, lo, hi);
+        const key = (row: { event: string; platform: string; version: string; dimension: string; value: string }) =>
+          [row.event, row.platform, row.version, row.dimension, row.value].join('|');
+        actual.sort((a, b) => byteOrder(key(a), key(b)));
+        expected.sort((a, b) => byteOrder(key(a), key(b)));
+        expect(actual).toEqual(expected);
+      }),
+      { numRuns: 60, seed: 20261202 },
+    );
+  });
+});
