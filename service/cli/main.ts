@@ -72,6 +72,8 @@ program
     process.exitCode = await withRuntime((rt) => runCommand(rt, options));
   });
 
+// Further commands register here, one module each under service/cli/commands/.
+
 try {
   await program.parseAsync(process.argv);
 } catch (error) {

@@ -1,6 +1,6 @@
 import { z } from 'zod';
 import type { CheckModule } from '../../checks/types.js';
-import { duration, isoDate, timeZone } from './units.js';
+import { cron, duration, isoDate, timeZone } from './units.js';
 
 /** Lower-case words joined by `_` or `-`: ids that end up in URLs, metrics and messages. */
 const slug = () =>
@@ -76,6 +76,50 @@ export const mainSchema = z.strictObject({
     .default({ settle_time: 7200, history_days: 120, restatement_days: 7 }),
   calendar: z.array(calendarEntry).default([]),
   owners: z.record(slug(), owner).default({}),
+  incidents: z
+    .strictObject({
+      /** An incident resolves after this many judged days without its symptoms. */
+      resolve_after_days: z.number().int().min(1).max(30).default(2),
+      /** At most one repeat notification per incident within this time (a severity rise). */
+      renotify_cooldown: duration().default(86400),
+    })
+    .default({ resolve_after_days: 2, renotify_cooldown: 86400 }),
+  delivery: z
+    .strictObject({
+      chat: z
+        .strictObject({
+          webhook_url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (webhook URLs are secrets)' }).optional(),
+        })
+        .default({}),
+      email: z
+        .strictObject({
+          smtp_url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (SMTP URLs carry credentials)' }).optional(),
+          from: z.string().default('plumbline <plumbline@localhost>'),
+        })
+        .default({ from: 'plumbline <plumbline@localhost>' }),
+      /** Where payloads go when no webhook or SMTP server is configured (the demo). */
+      outbox_dir: z.string().default('.plumbline/outbox'),
+      /** Failed sends before a message is parked for a person to look at. */
+      max_attempts: z.number().int().min(1).max(50).default(8),
+      /** Never show parameter values in messages, pages or digests. */
+      hide_values: z.boolean().default(false),
+    })
+    .default({ chat: {}, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false }),
+  schedule: z
+    .strictObject({
+      daily_run: cron().default('30 6 * * *'),
+      weekly_digest: cron().default('0 8 * * 1'),
+      /** Missed days judged at start-up, at most. */
+      catch_up_days: z.number().int().min(0).max(90).default(7),
+    })
+    .default({ daily_run: '30 6 * * *', weekly_digest: '0 8 * * 1', catch_up_days: 7 }),
+  http: z
+    .strictObject({
+      port: z.number().int().min(1).max(65535).default(8080),
+      /** Base URL of the pages, used in chat links and the digest. */
+      public_url: z.url().default('http://localhost:8080'),
+    })
+    .default({ port: 8080, public_url: 'http://localhost:8080' }),
 });
 export type MainConfigInput = z.input<typeof mainSchema>;
 export type MainConfig = z.output<typeof mainSchema>;

@@ -1,3 +1,4 @@
+import { validate as validateCron } from 'node-cron';
 import { z } from 'zod';
 
 const DURATION = /^(\d+(?:\.\d+)?)(s|m|h|d)$/;
@@ -54,3 +55,9 @@ export const timeZone = () =>
     },
     { message: 'expected an IANA time zone such as America/New_York' },
   );
+
+/** A five-field cron expression (minute hour day-of-month month day-of-week), read in the business timezone. */
+export const cron = () =>
+  z.string().refine((text) => text.trim().split(/\s+/).length === 5 && validateCron(text), {
+    message: 'expected a five-field cron expression such as "30 6 * * *"',
+  });
