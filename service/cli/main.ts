@@ -1,11 +1,8 @@
 import { Command, CommanderError, InvalidArgumentError } from 'commander';
-import { loadConfig } from '../config/load.js';
-import { ConfigError, formatProblem } from '../config/problems.js';
-import { createLogger } from '../log.js';
-import { openRuntime, type Runtime } from '../runtime.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
 import { EXIT, ExitError } from './exit-codes.js';
+import { withRuntime } from './with-runtime.js';
 
 const program = new Command()
   .name('plumbline')
@@ -14,39 +11,12 @@ const program = new Command()
   .showHelpAfterError()
   .exitOverride();
 
+const configDir = () => program.opts<{ config: string }>().config;
+
 function integer(value: string): number {
   const parsed = Number(value);
   if (!Number.isInteger(parsed) || parsed < 1) throw new InvalidArgumentError('expected a whole number of 1 or more');
   return parsed;
-}
-
-/** Loads the config (exit 2 on errors) and opens the connections (exit 3 when that fails). */
-async function withRuntime(work: (rt: Runtime) => Promise<number>, options: { forceEmbedded?: boolean } = {}): Promise<number> {
-  const dir = program.opts<{ config: string }>().config;
-  let config;
-  try {
-    config = loadConfig(dir);
-  } catch (error) {
-    if (error instanceof ConfigError) {
-      for (const problem of error.problems) console.error(formatProblem(problem));
-      return EXIT.config;
-    }
-    throw error;
-  }
-  const log = createLogger({ level: process.env.PLUMBLINE_LOG_LEVEL ?? 'warn' });
-  let rt: Runtime;
-  try {
-    rt = await openRuntime(config, { log, ...options });
-  } catch (error) {
-    log.error({ err: error }, 'cannot open the databases');
-    console.error(`plumbline: cannot open the databases: ${(error as Error).message}`);
-    return EXIT.database;
-  }
-  try {
-    return await work(rt);
-  } finally {
-    await rt.close();
-  }
 }
 
 program
@@ -56,7 +26,7 @@ program
   .option('--strict', 'exit 1 when there are warnings')
   .option('--json', 'machine-readable output')
   .action((dir: string | undefined, options: { strict?: boolean; json?: boolean }) => {
-    process.exitCode = validateCommand(dir ?? program.opts<{ config: string }>().config, options);
+    process.exitCode = validateCommand(dir ?? configDir(), options);
   });
 
 program
@@ -69,10 +39,23 @@ program
   .option('--days <n>', 'days shown in the day-by-day picture', integer, 14)
   .option('--json', 'machine-readable output')
   .action(async (options) => {
-    process.exitCode = await withRuntime((rt) => runCommand(rt, options));
+    process.exitCode = await withRuntime(configDir(), (rt) => runCommand(rt, options));
   });
 
 // Further commands register here, one module each under service/cli/commands/.
+
+program
+  .command('serve')
+  .description('run the daily schedule and serve health, readiness, metrics and the pages over HTTP')
+  .option('--demo', 'serve the demo scenario from the embedded database, without a schedule')
+  .option('--port <n>', 'listen on this port instead of http.port (0: any free port)', (value: string) => Number(value))
+  .option('--host <address>', 'interface to listen on (default: all; 127.0.0.1 with --demo)')
+  .option('--no-catch-up', 'skip the catch-up pass at start')
+  .action(async (options) => {
+    // Loaded on use: the scheduler, HTTP server and metrics are not needed by the one-shot commands.
+    const { serveCommand } = await import('./commands/serve.js');
+    process.exitCode = await serveCommand(configDir(), options);
+  });
 
 try {
   await program.parseAsync(process.argv);

@@ -2,12 +2,22 @@
  * The SQL that turns one day's plan into events, set-based inside PostgreSQL:
  * `generate_series` makes one row per journey, hashed draws decide who the
  * person is and what they do, and a lateral VALUES list expands each journey
- * into its events. Randomness is `hashint8extended(key, seed)`, so the result
- * depends only on (seed, day, platform, journey), never on row order or on how
- * the work is split.
+ * into its events. Randomness is `hashint4extended(slot, stream)`, where each
+ * stream is a 64-bit hash of (seed, day, kind, platform) or (seed, platform), so
+ * the result depends only on those and the journey's slot, never on row order
+ * or on how the work is split. (`hashint8extended` would not do as the per-row
+ * hash: it folds its input to 32 bits first, so nearby keys collide.)
  */
 import { Params, quoteIdent, quoteQualified, type Query } from '../db/sql.js';
-import { CANADA_DECLINE_SHARE, POOL_DAYS, type DayPlan, type JourneyKind, type PlatformDay } from './model.js';
+import {
+  CANADA_DECLINE_SHARE,
+  riderPopulation,
+  type DayPlan,
+  type DayRange,
+  type JourneyKind,
+  type PlatformDay,
+  type PlatformModel,
+} from './model.js';
 
 /** The events table, as the team's warehouse would have it (no primary key). */
 export function createTableQueries(table: string): Query[] {
@@ -37,18 +47,18 @@ export function createIndexQuery(table: string): Query {
   return { text: `create index ${quoteIdent(`${bare}_occurred_at_idx`)} on ${quoteQualified(table)} (occurred_at)`, values: [] };
 }
 
+/** Independent streams of hashed draws. */
+const STREAMS = ['journey', 'person', 'user', 'device', 'new_device'] as const;
+type Stream = (typeof STREAMS)[number];
+
 /** Pieces of every draw and pick, collecting parameters as the text is assembled. */
 class Sql {
   readonly p = new Params();
-  /** Separate hash streams: journeys, people, ids. */
-  readonly journeySeed: string;
-  readonly personSeed: string;
-  readonly idSeed: string;
+  constructor(readonly seed: number) {}
 
-  constructor(seed: number) {
-    this.journeySeed = `${this.p.add(String(seed * 4))}::bigint`;
-    this.personSeed = `${this.p.add(String(seed * 4 + 1))}::bigint`;
-    this.idSeed = `${this.p.add(String(seed * 4 + 2))}::bigint`;
+  /** A 64-bit hash seed for one stream of draws; PostgreSQL folds it once, at planning. */
+  stream(purpose: Stream, key: number): string {
+    return `hashint8extended(${this.p.add(String(key))}::bigint, ${this.p.add(String(this.seed * 8 + STREAMS.indexOf(purpose)))}::bigint)`;
   }
 
   num(value: number): string {
@@ -67,9 +77,9 @@ class Sql {
     return `${this.p.add(JSON.stringify(value))}::jsonb`;
   }
 
-  /** Uniform in (0, 1) from a bigint key; `k` selects one of 64 independent draws per key. */
-  uniform(key: string, k: number, seed: string): string {
-    return `((hashint8extended(${key} * 64 + ${k}, ${seed}) & 2147483647)::float8 + 0.5) / 2147483648.0`;
+  /** Uniform in (0, 1) from an int key below 2^25; `k` selects one of 64 independent draws per key. */
+  uniform(key: string, k: number, stream: string): string {
+    return `((hashint4extended(${key} * 64 + ${k}, ${stream}) & 2147483647)::float8 + 0.5) / 2147483648.0`;
   }
 
   /** Standard normal from two uniform columns (Box-Muller). */
@@ -97,7 +107,7 @@ class Sql {
   /**
    * Local wall-clock seconds of the day from a mixture of daily peaks
    * ([share, mean hour, spread in hours]) and a uniform 06:00-24:00 rest,
-   * folded into the day.
+   * folded into the day (a peak's tail past midnight lands early that morning).
    */
   timeOfDay(mix: string, u1: string, u2: string, rest: string, peaks: ReadonlyArray<readonly [number, number, number]>): string {
     let cumulative = 0;
@@ -106,13 +116,19 @@ class Sql {
       cumulative += share;
       return `when ${mix} < ${this.num(cumulative)} then (${this.num(hour)} + ${this.num(spread)} * ${z}) * 3600`;
     });
-    const seconds = `(case ${arms.join(' ')} else (6 + 18 * ${rest}) * 3600 end)`;
-    return `(${seconds} - 86400 * floor(${seconds} / 86400))`;
+    return `mod((case ${arms.join(' ')} else (6 + 18 * ${rest}) * 3600 end + 86400)::numeric, 86400)::float8`;
   }
 
-  /** The instant of local wall-clock `seconds` on `day` in `timezone`. */
+  /** The instant of local wall-clock `seconds` on the date `day` in `timezone`. */
   localInstant(day: string, timezone: string, seconds: string): string {
-    return `((${day}::date + ${seconds} * interval '1 second') at time zone ${timezone})`;
+    return `((${day} + ${seconds} * interval '1 second') at time zone ${timezone})`;
+  }
+
+  /** Whether instant `at` falls on the local days of `range`; false when there is none. */
+  within(at: string, range: DayRange | null, timezone: string): string {
+    if (!range) return 'false';
+    const bound = (day: string, plus: number) => `(select (${this.text(day)}::date + ${plus})::timestamp at time zone ${timezone})`;
+    return `(${at} >= ${bound(range.from, 0)} and ${at} < ${bound(range.to, 1)})`;
   }
 
   /** App version from a person's update eagerness: newest release they have, else a base version. */
@@ -125,17 +141,20 @@ class Sql {
     return `case ${arms.join(' ')} else ${fallback} end`;
   }
 
-  userId(pid: string): string {
-    return `'u_' || lpad(to_hex(hashint8extended(${pid}, ${this.idSeed}) & 1099511627775), 10, '0')`;
+  /** 40 bits of hash, as ids look in a real table. */
+  userId(key: string, stream: string): string {
+    return `${this.text('u_')} || lpad(to_hex(hashint4extended(${key}, ${stream}) & 1099511627775), 10, '0')`;
   }
-  deviceId(key: string): string {
-    return `lpad(to_hex(hashint8extended(${key}, ${this.idSeed} + 1)), 16, '0')`;
+  /** 64 bits of hash. */
+  deviceId(key: string, stream: string): string {
+    return `lpad(to_hex(hashint4extended(${key}, ${stream})), 16, '0')`;
   }
 }
 
+/** The city is close to the Canadian border: a tenth of riders pay from Canada. */
 const COUNTRIES: ReadonlyArray<readonly [string, number]> = [
-  ['US', 0.86],
-  ['CA', 0.06],
+  ['US', 0.82],
+  ['CA', 0.1],
   ['MX', 0.03],
   ['GB', 0.02],
   ['DE', 0.015],
@@ -201,6 +220,13 @@ const REPEAT_INTRO = 0.06;
 const REPEAT_ZONE = 0.08;
 /** Share of pass journeys paused for 30-120 minutes before paying: completions after the window. */
 const RESUMED_LATER = 0.012;
+/** Sign-up continuation: form -> submitted, submitted -> e-mail verified. */
+const SIGNUP_SUBMITTED = 0.72;
+const SIGNUP_VERIFIED = 0.8;
+/** App sessions with a ticket scan, of those a return trip later in the day, and with a map view. */
+const SCAN_SHARE = 0.8;
+const RETURN_TRIP = 0.35;
+const MAP_IN_APP = 0.3;
 
 export interface UnitSpec {
   plan: DayPlan;
@@ -215,216 +241,277 @@ export interface UnitSpec {
   scale: number;
 }
 
-/** One insert covering a slice of one platform's journeys of one day, all three kinds. */
-export function unitInsertQuery(spec: UnitSpec): Query {
-  const sql = new Sql(spec.seed);
-  const day = sql.text(spec.plan.day);
-  const tz = sql.text(spec.timezone);
-  const cutoff = `coalesce((${day}::date + ${sql.text(spec.plan.incidents.cutoffLocalTime)}::time) at time zone ${tz}, 'infinity'::timestamptz)`;
-  const ctx: KindContext = { sql, spec, day, tz, raw: sql.text(spec.platform.platform.raw), cutoff };
-  const selects = [passSelect(ctx), signupSelect(ctx), otherSelect(ctx)];
-  const text = `insert into ${quoteQualified(spec.table)}
-  (occurred_at, event_name, user_id, device_id, platform, app_version, props, country, channel)
-${selects.join('\nunion all\n')}`;
-  return { text, values: sql.p.values };
-}
-
+/** What every kind's SQL needs; the string fields are SQL expressions. */
 interface KindContext {
   sql: Sql;
   spec: UnitSpec;
+  model: PlatformModel;
+  /** The day as a date. */
   day: string;
   tz: string;
+  /** The raw platform value written to the table. */
   raw: string;
+  /** Whether the platform is an app (sends app_open, ticket scans). */
+  app: string;
+  /** Events at or after this instant are not delivered. */
   cutoff: string;
+}
+
+/** A kind of journey: its stages as named CTEs, in order, and the select that expands the last stage into events. */
+interface KindSql {
+  stages: Array<[name: string, body: string]>;
+  select: string;
+}
+
+/**
+ * One insert covering a slice of one platform's journeys of one day, all three
+ * kinds. Each stage ends in `offset 0`, which keeps PostgreSQL from inlining it
+ * into the next: inlined, a column used three times would be hashed three times.
+ */
+export function unitInsertQuery(spec: UnitSpec): Query {
+  const sql = new Sql(spec.seed);
+  const tz = sql.text(spec.timezone);
+  const model = spec.platform.platform;
+  const stop = spec.plan.incidents.collectorStop;
+  // Scalar subqueries run once: a text-to-date cast is only stable, so PostgreSQL would not fold it and would redo it per row.
+  const cutoff = stop ? `(select (${sql.text(stop.day)}::date + ${sql.text(stop.time)}::time) at time zone ${tz})` : `'infinity'::timestamptz`;
+  const ctx: KindContext = {
+    sql,
+    spec,
+    model,
+    day: `(select ${sql.text(spec.plan.day)}::date)`,
+    tz,
+    raw: sql.text(model.raw),
+    app: sql.bool(model.id !== 'web'),
+    cutoff,
+  };
+  const kinds = [passJourneys(ctx), signupJourneys(ctx), otherSessions(ctx)];
+  const stages = kinds.flatMap((kind) => kind.stages).map(([name, body]) => `${name} as (\n${body}\n  offset 0\n)`);
+  const text = `with ${stages.join(',\n')}
+insert into ${quoteQualified(spec.table)} (occurred_at, event_name, user_id, device_id, platform, app_version, props, country, channel)
+${kinds.map((kind) => kind.select).join('\nunion all\n')}`;
+  return { text, values: sql.p.values };
 }
 
 const KIND_INDEX: Record<JourneyKind, number> = { pass: 0, signup: 1, other: 2 };
 
-/** Journey keys of this unit's slice: (day, kind, platform) in the high bits, the slot in the low 26. */
-function slots(ctx: KindContext, kind: JourneyKind): string {
+/** Stream of a kind's journeys on this day and platform. */
+function journeyStream(ctx: KindContext, kind: JourneyKind, purpose: Stream = 'journey'): string {
+  return ctx.sql.stream(purpose, ctx.spec.plan.dayNumber * 16 + KIND_INDEX[kind] * 4 + ctx.model.index);
+}
+
+/** This unit's slice of a kind's journey slots (1-based, at most 2^25 a day). */
+function journeySlots(ctx: KindContext, kind: JourneyKind): string {
   const { spec, sql } = ctx;
-  const prefix = (BigInt(spec.plan.dayNumber) * 16n + BigInt(KIND_INDEX[kind] * 4 + spec.platform.platform.index)) << 26n;
-  const count = spec.platform.journeys[kind];
-  return `select ${sql.p.add(prefix.toString())}::bigint + g as jkey
-    from generate_series(${sql.int(spec.part + 1)}, ${sql.int(count)}, ${sql.int(spec.parts)}) g`;
+  return `generate_series(${sql.int(spec.part + 1)}, ${sql.int(spec.platform.journeys[kind])}, ${sql.int(spec.parts)}) a(slot)`;
 }
 
-/** Draw columns j1..jn of a journey key. */
-function journeyDraws(ctx: KindContext, n: number): string {
-  return Array.from({ length: n }, (_, i) => `${ctx.sql.uniform('a.jkey', i + 1, ctx.sql.journeySeed)} as j${i + 1}`).join(',\n      ');
+/** Draw columns j1..jn of the journey slot `a.slot`. */
+function journeyDraws(ctx: KindContext, kind: JourneyKind, n: number): string {
+  const stream = journeyStream(ctx, kind);
+  return Array.from({ length: n }, (_, i) => `${ctx.sql.uniform('a.slot', i + 1, stream)} as j${i + 1}`).join(', ');
 }
 
-/** The pass-rider population this platform draws from: pass journeys and ticket/map sessions share it. */
-function personId(ctx: KindContext): string {
+/**
+ * The pass riders of this platform, drawn from a fixed population (person
+ * number `pid`): pass journeys and ticket/map sessions share it.
+ */
+function riderSlots(ctx: KindContext, kind: JourneyKind): string {
   const { sql, spec } = ctx;
-  const pool = Math.max(1, Math.round(spec.platform.platform.base.pass * spec.scale * POOL_DAYS));
-  const base = BigInt(spec.platform.platform.index) << 32n;
-  return `${sql.p.add(base.toString())}::bigint + floor(${sql.uniform('s.jkey', 0, sql.journeySeed)} * ${sql.int(pool)})::bigint`;
+  const population = riderPopulation(ctx.model, spec.scale);
+  return `  select a.slot, floor(${sql.uniform('a.slot', 0, journeyStream(ctx, kind))} * ${sql.int(population)})::int as pid
+  from ${journeySlots(ctx, kind)}`;
 }
 
-/** Person columns of a pass rider: stable per person id across days. */
+/** Person draws of `a.pid`: the same for a person on every day. */
 function personDraws(ctx: KindContext): string {
   const { sql } = ctx;
+  const stream = sql.stream('person', ctx.model.index);
   const names = ['anon', 'two', 'skew', 'country', 'channel', 'eager', 'patch', 'rider'];
-  return names.map((name, i) => `${sql.uniform('a.pid', i + 1, sql.personSeed)} as p_${name}`).join(',\n      ');
+  return names.map((name, i) => `${sql.uniform('a.pid', i + 1, stream)} as p_${name}`).join(', ');
 }
 
-/** Identity and dimensions of a rider from the person draws. */
+/** Identity, dimensions and app version of a rider from the person draws of `b`. */
 function riderColumns(ctx: KindContext): string {
   const { sql, spec } = ctx;
-  const anonymous = `b.p_anon < ${sql.num(spec.platform.platform.anonymousShare)}`;
-  return `case when ${anonymous} then null else ${sql.userId('b.pid')} end as user_id,
-      ${sql.deviceId('b.pid * 2')} as device1,
-      case when not (${anonymous}) and b.p_two < ${sql.num(TWO_DEVICES)} then ${sql.deviceId('b.pid * 2 + 1')} end as device2,
-      (b.p_skew * 120 - 90) as skew,
-      ${sql.pick('b.p_country', COUNTRIES)} as country,
-      ${sql.pick('b.p_channel', CHANNELS)} as channel,
-      ${sql.version(spec.platform, 'b.p_eager', 'b.p_patch')} as version`;
-}
-
-function isApp(ctx: KindContext): boolean {
-  return ctx.spec.platform.platform.id !== 'web';
+  const signedIn = `b.p_anon >= ${sql.num(ctx.model.anonymousShare)}`;
+  const devices = sql.stream('device', ctx.model.index);
+  return `case when ${signedIn} then ${sql.userId('b.pid', sql.stream('user', ctx.model.index))} end as user_id,
+    ${sql.deviceId('b.pid * 2', devices)} as device1,
+    case when ${signedIn} and b.p_two < ${sql.num(TWO_DEVICES)} then ${sql.deviceId('b.pid * 2 + 1', devices)} end as device2,
+    b.p_skew * 120 - 90 as skew,
+    ${sql.pick('b.p_country', COUNTRIES)} as country,
+    ${sql.pick('b.p_channel', CHANNELS)} as channel,
+    ${sql.version(spec.platform, 'b.p_eager', 'b.p_patch')} as version`;
 }
 
 const seconds = (expr: string) => `(${expr}) * interval '1 second'`;
 
-function passSelect(ctx: KindContext): string {
-  const { sql, spec } = ctx;
-  const model = spec.platform.platform;
+/**
+ * The monthly pass funnel: intro, zone picker (with zone_selected), rider
+ * details, pay review, purchase result. The second device of a person (when
+ * used) sends the later steps with its own clock, so some arrive out of order.
+ */
+function passJourneys(ctx: KindContext): KindSql {
+  const { sql, model } = ctx;
   const rates = model.conversion;
-  const incidents = spec.plan.incidents;
-  const app = sql.bool(isApp(ctx));
-  const referrers = REFERRERS[isApp(ctx) ? 'app' : 'web']!;
-  const resultProps = `jsonb_build_object(${sql.text('outcome')}, j.result, ${sql.text('amount_cents')}, j.amount, ${sql.text('pass_type')}, j.pass_type)`;
-  const zoneKey = `case when coalesce(j.version = ${sql.text(incidents.renameZoneVersion)}, false) then ${sql.text('zone')} else ${sql.text('fare_zone')} end`;
-  const screen = (name: string) => sql.json({ screen: name });
-  const [approved, declined, cancelled] = [rates.approved, rates.approved + rates.declined, rates.approved + rates.declined + rates.cancelled];
+  const incidents = ctx.spec.plan.incidents;
+  const referrers = REFERRERS[model.id === 'web' ? 'web' : 'app']!;
   const reach1 = `b.j5 < ${sql.num(rates.zone)}`;
   const reach2 = `${reach1} and b.j6 < ${sql.num(rates.rider)}`;
   const reach3 = `${reach2} and b.j7 < ${sql.num(rates.review)}`;
-  const price = `case c.zone ${Object.entries(PRICES).map(([zone, cents]) => `when ${sql.text(zone)} then ${sql.int(cents)}`).join(' ')} end`;
-  const adult = `c.rider_type = ${sql.text('adult')}`;
+  const price = `case d.zone ${Object.entries(PRICES).map(([zone, cents]) => `when ${sql.text(zone)} then ${sql.int(cents)}`).join(' ')} end`;
+  const adult = `d.rider_type = ${sql.text('adult')}`;
+  const zoneKey = `case when coalesce(j.version = ${sql.text(incidents.renameZoneVersion)}, false) then ${sql.text('zone')} else ${sql.text('fare_zone')} end`;
+  const screen = (name: string) => sql.json({ screen: name });
+  const view = sql.text('screen_view');
+  const result = sql.text('pass_purchase_result');
 
-  return `select e.at, e.name, j.user_id, case when e.second then j.device2 else j.device1 end, ${ctx.raw}, j.version, e.props, j.country, j.channel
-from (
-  select c.*,
+  return {
+    stages: [
+      ['pass_slots', riderSlots(ctx, 'pass')],
+      ['pass_draws', `  select a.slot, a.pid, ${personDraws(ctx)}, ${journeyDraws(ctx, 'pass', 32)}\n  from pass_slots a`],
+      [
+        'pass_people',
+        `  select b.*,
+    ${riderColumns(ctx)},
+    ${sql.pick('b.p_rider', RIDER_TYPES)} as rider_type,
+    ${sql.localInstant(ctx.day, ctx.tz, sql.timeOfDay('b.j1', 'b.j2', 'b.j3', 'b.j4', SHOPPING_PEAKS))} as at0,
+    ${reach1} as reach1,
+    ${reach2} as reach2,
+    ${reach3} as reach3,
+    case when ${reach3} then
+      case when b.j8 < ${sql.num(rates.approved)} then ${sql.text('approved')}
+           when b.j8 < ${sql.num(rates.approved + rates.declined)} then ${sql.text('declined')}
+           when b.j8 < ${sql.num(rates.approved + rates.declined + rates.cancelled)} then ${sql.text('cancelled')} end
+    end as outcome,
+    ${sql.lognormal(12, 0.8, 'b.j10', 'b.j11')} as g1,
+    ${sql.lognormal(25, 0.9, 'b.j12', 'b.j13')} as g2,
+    ${sql.lognormal(40, 1.0, 'b.j14', 'b.j15')} as g3,
+    ${sql.lognormal(35, 0.9, 'b.j16', 'b.j17')} + case when b.j18 < ${sql.num(RESUMED_LATER)} then 1800 + 5400 * b.j19 else 0 end as g4,
+    b.j20 < 0.5 and b.p_two < ${sql.num(TWO_DEVICES)} and b.p_anon >= ${sql.num(model.anonymousShare)} as switch,
+    ${sql.pick('b.j25', FARE_ZONES)} as zone,
+    ${sql.pick('b.j28', APP_OPEN_SOURCES)} as source,
+    ${sql.pick('b.j29', referrers)} as referrer
+  from pass_draws b`,
+      ],
+      [
+        'pass_times',
+        `  select c.*,
     c.at0 + ${seconds('c.g1')} as r1,
     c.at0 + ${seconds('c.g1 + c.g2')} as r2,
     c.at0 + ${seconds('c.g1 + c.g2 + c.g3')} as r3,
     c.at0 + ${seconds('c.g1 + c.g2 + c.g3 + c.g4')} as r4,
-    case when c.switch then ${seconds('c.skew')} else interval '0' end as sk,
-    case when c.outcome = ${sql.text('approved')} and c.country = ${sql.text('CA')} and ${sql.bool(incidents.canadaDeclines)}
-              and c.j30 < ${sql.num(CANADA_DECLINE_SHARE)} then ${sql.text('declined')} else c.outcome end as result,
-    case when ${adult} then ${price} else ${price} / 2 end as amount,
-    case when ${adult} then ${sql.text('monthly')} else ${sql.text('monthly_reduced')} end as pass_type
-  from (
-    select b.*,
-      ${riderColumns(ctx)},
-      ${sql.pick('b.p_rider', RIDER_TYPES)} as rider_type,
-      ${sql.localInstant(ctx.day, ctx.tz, sql.timeOfDay('b.j1', 'b.j2', 'b.j3', 'b.j4', SHOPPING_PEAKS))} as at0,
-      ${reach1} as reach1,
-      ${reach2} as reach2,
-      ${reach3} as reach3,
-      case when ${reach3} then
-        case when b.j8 < ${sql.num(approved)} then ${sql.text('approved')}
-             when b.j8 < ${sql.num(declined)} then ${sql.text('declined')}
-             when b.j8 < ${sql.num(cancelled)} then ${sql.text('cancelled')} end
-      end as outcome,
-      ${sql.lognormal(12, 0.8, 'b.j10', 'b.j11')} as g1,
-      ${sql.lognormal(25, 0.9, 'b.j12', 'b.j13')} as g2,
-      ${sql.lognormal(40, 1.0, 'b.j14', 'b.j15')} as g3,
-      ${sql.lognormal(35, 0.9, 'b.j16', 'b.j17')} + case when b.j18 < ${sql.num(RESUMED_LATER)} then 1800 + 5400 * b.j19 else 0 end as g4,
-      b.j20 < 0.5 and b.p_two < ${sql.num(TWO_DEVICES)} and b.p_anon >= ${sql.num(model.anonymousShare)} as switch,
-      ${sql.pick('b.j25', FARE_ZONES)} as zone,
-      ${sql.pick('b.j28', APP_OPEN_SOURCES)} as source,
-      ${sql.pick('b.j29', referrers)} as referrer
-    from (
-      select a.jkey, a.pid,
-      ${personDraws(ctx)},
-      ${journeyDraws(ctx, 31)}
-      from (select s.jkey, ${personId(ctx)} as pid from (${slots(ctx, 'pass')}) s offset 0) a
-      offset 0
-    ) b
-    offset 0
-  ) c
-  offset 0
-) j
+    case when c.switch then ${seconds('c.skew')} else interval '0' end as sk
+  from pass_people c`,
+      ],
+      [
+        'pass_results',
+        `  select t.*,
+    case when t.outcome = ${sql.text('approved')} and t.country = ${sql.text('CA')} and ${sql.within('t.r4 + t.sk', incidents.canadaDeclines, ctx.tz)}
+              and t.j30 < ${sql.num(CANADA_DECLINE_SHARE)} then ${sql.text('declined')} else t.outcome end as result
+  from pass_times t`,
+      ],
+      [
+        'pass_journeys',
+        `  select d.*,
+    jsonb_build_object(
+      ${sql.text('outcome')}, d.result,
+      ${sql.text('amount_cents')}, case when ${adult} then ${price} else ${price} / 2 end,
+      ${sql.text('pass_type')}, case when ${adult} then ${sql.text('monthly')} else ${sql.text('monthly_reduced')} end
+    ) as result_props
+  from pass_results d`,
+      ],
+    ],
+    select: `select e.at, e.name, j.user_id, case when e.second then j.device2 else j.device1 end, ${ctx.raw}, j.version, e.props, j.country, j.channel
+from pass_journeys j
 cross join lateral (values
   (j.at0 - ${seconds('2 + 28 * j.j26')}, ${sql.text('app_open')}, jsonb_build_object(${sql.text('source')}, j.source),
-    ${app} and j.j30 < ${sql.num(APP_OPEN_BEFORE_PASS)}, false),
-  (j.at0, ${sql.text('screen_view')}, jsonb_build_object(${sql.text('screen')}, ${sql.text('pass_intro')}, ${sql.text('referrer')}, j.referrer), true, false),
-  (j.at0 + ${seconds('j.g1 * j.j22')}, ${sql.text('screen_view')}, ${screen('pass_intro')}, j.j21 < ${sql.num(REPEAT_INTRO)}, false),
-  (j.r1, ${sql.text('screen_view')}, ${screen('zone_picker')}, j.reach1, false),
-  (j.r1 + ${seconds('j.g2 * j.j24')}, ${sql.text('screen_view')}, ${screen('zone_picker')}, j.reach1 and j.j23 < ${sql.num(REPEAT_ZONE)}, false),
+    ${ctx.app} and j.j32 < ${sql.num(APP_OPEN_BEFORE_PASS)}, false),
+  (j.at0, ${view}, jsonb_build_object(${sql.text('screen')}, ${sql.text('pass_intro')}, ${sql.text('referrer')}, j.referrer), true, false),
+  (j.at0 + ${seconds('j.g1 * j.j22')}, ${view}, ${screen('pass_intro')}, j.j21 < ${sql.num(REPEAT_INTRO)}, false),
+  (j.r1, ${view}, ${screen('zone_picker')}, j.reach1, false),
+  (j.r1 + ${seconds('j.g2 * j.j24')}, ${view}, ${screen('zone_picker')}, j.reach1 and j.j23 < ${sql.num(REPEAT_ZONE)}, false),
   (j.r1 + ${seconds('j.g2 * (0.3 + 0.5 * j.j27)')}, ${sql.text('zone_selected')},
     jsonb_build_object(${zoneKey}, j.zone, ${sql.text('rider_type')}, j.rider_type),
     j.reach2 or (j.reach1 and j.j9 < ${sql.num(0.4)}), false),
-  (j.r2 + j.sk, ${sql.text('screen_view')}, ${screen('rider_details')},
+  (j.r2 + j.sk, ${view}, ${screen('rider_details')},
     j.reach2 and not coalesce(j.version = ${sql.text(incidents.dropRiderVersion)}, false), j.switch),
-  (j.r3 + j.sk, ${sql.text('screen_view')}, ${screen('pay_review')},
-    j.reach3 and not ${sql.bool(incidents.webPayReviewOutage && model.id === 'web')}, j.switch),
-  (j.r4 + j.sk, ${sql.text('pass_purchase_result')}, ${resultProps}, j.result is not null, j.switch),
-  (j.r4 + j.sk + ${seconds('0.003 + 0.04 * j.j31')}, ${sql.text('pass_purchase_result')}, ${resultProps},
-    j.result is not null and ${sql.bool(incidents.androidDuplicates && model.id === 'android')}, j.switch)
+  (j.r3 + j.sk, ${view}, ${screen('pay_review')},
+    j.reach3 and not ${sql.within('j.r3 + j.sk', model.id === 'web' ? incidents.webPayReviewOutage : null, ctx.tz)}, j.switch),
+  (j.r4 + j.sk, ${result}, j.result_props, j.result is not null, j.switch),
+  (j.r4 + j.sk + ${seconds('0.003 + 0.04 * j.j31')}, ${result}, j.result_props,
+    j.result is not null and ${sql.within('j.r4 + j.sk', model.id === 'android' ? incidents.androidDuplicates : null, ctx.tz)}, j.switch)
 ) as e(at, name, props, keep, second)
-where e.keep and e.at < ${ctx.cutoff}`;
+where e.keep and e.at < ${ctx.cutoff}`,
+  };
 }
 
-function signupSelect(ctx: KindContext): string {
-  const { sql, spec } = ctx;
-  const app = sql.bool(isApp(ctx));
-  // A sign-up comes from a new device, not yet signed in: the device is the person throughout.
-  return `select e.at, e.name, null::text, j.device1, ${ctx.raw}, j.version, e.props, j.country, j.channel
-from (
-  select b.*,
-    ${sql.deviceId('-b.jkey')} as device1,
+/**
+ * Account sign-up: form, submitted, e-mail verified (minutes to hours later).
+ * A sign-up comes from a new device not yet signed in: the device is the person throughout.
+ */
+function signupJourneys(ctx: KindContext): KindSql {
+  const { sql, spec, model } = ctx;
+  return {
+    stages: [
+      ['signup_draws', `  select a.slot, ${journeyDraws(ctx, 'signup', 16)}\n  from ${journeySlots(ctx, 'signup')}`],
+      [
+        'signup_journeys',
+        `  select b.*,
+    ${sql.deviceId('b.slot', journeyStream(ctx, 'signup', 'new_device'))} as device1,
     ${sql.pick('b.j1', COUNTRIES)} as country,
     ${sql.pick('b.j2', CHANNELS)} as channel,
     ${sql.version(spec.platform, 'b.j3', 'b.j4')} as version,
     ${sql.localInstant(ctx.day, ctx.tz, sql.timeOfDay('b.j5', 'b.j6', 'b.j7', 'b.j8', SHOPPING_PEAKS))} as at0,
-    b.j9 < ${sql.num(0.72)} as reach1,
-    b.j9 < ${sql.num(0.72)} and b.j10 < ${sql.num(0.8)} as reach2,
+    b.j9 < ${sql.num(SIGNUP_SUBMITTED)} as reach1,
+    b.j9 < ${sql.num(SIGNUP_SUBMITTED)} and b.j10 < ${sql.num(SIGNUP_VERIFIED)} as reach2,
     ${sql.lognormal(50, 0.8, 'b.j11', 'b.j12')} as g1,
     ${sql.lognormal(240, 1.4, 'b.j13', 'b.j14')} as g2,
-    ${sql.pick('b.j15', spec.platform.platform.signupMethods)} as method
-  from (select a.jkey, ${journeyDraws(ctx, 16)} from (${slots(ctx, 'signup')}) a offset 0) b
-  offset 0
-) j
+    ${sql.pick('b.j15', model.signupMethods)} as method
+  from signup_draws b`,
+      ],
+    ],
+    select: `select e.at, e.name, null::text, j.device1, ${ctx.raw}, j.version, e.props, j.country, j.channel
+from signup_journeys j
 cross join lateral (values
-  (j.at0 - ${seconds('2 + 20 * j.j16')}, ${sql.text('app_open')}, ${sql.json({ source: 'launcher' })}, ${app}),
+  (j.at0 - ${seconds('2 + 20 * j.j16')}, ${sql.text('app_open')}, ${sql.json({ source: 'launcher' })}, ${ctx.app}),
   (j.at0, ${sql.text('screen_view')}, ${sql.json({ screen: 'signup_form' })}, true),
   (j.at0 + ${seconds('j.g1')}, ${sql.text('signup_submitted')}, jsonb_build_object(${sql.text('method')}, j.method), j.reach1),
   (j.at0 + ${seconds('j.g1 + j.g2')}, ${sql.text('email_verified')}, ${sql.json({})}, j.reach2)
 ) as e(at, name, props, keep)
-where e.keep and e.at < ${ctx.cutoff}`;
+where e.keep and e.at < ${ctx.cutoff}`,
+  };
 }
 
-function otherSelect(ctx: KindContext): string {
-  const { sql, spec } = ctx;
-  const app = sql.bool(isApp(ctx));
-  return `select e.at, e.name, j.user_id, case when e.second then j.device2 else j.device1 end, ${ctx.raw}, j.version, e.props, j.country, j.channel
-from (
-  select b.*,
+/** Riders using their pass: ticket scans around commuting hours (apps only) and map views. */
+function otherSessions(ctx: KindContext): KindSql {
+  const { sql } = ctx;
+  const scan = sql.text('ticket_scan');
+  const line = (u: string) => `jsonb_build_object(${sql.text('line')}, ${sql.text('L')} || (1 + floor(${u} * 9))::int)`;
+  return {
+    stages: [
+      ['other_slots', riderSlots(ctx, 'other')],
+      ['other_draws', `  select a.slot, a.pid, ${personDraws(ctx)}, ${journeyDraws(ctx, 'other', 12)}\n  from other_slots a`],
+      [
+        'other_sessions',
+        `  select b.*,
     ${riderColumns(ctx)},
     ${sql.localInstant(ctx.day, ctx.tz, sql.timeOfDay('b.j1', 'b.j2', 'b.j3', 'b.j4', COMMUTE_PEAKS))} as at0,
     ${sql.pick('b.j8', MAP_LAYERS)} as layer
-  from (
-    select a.jkey, a.pid,
-    ${personDraws(ctx)},
-    ${journeyDraws(ctx, 12)}
-    from (select s.jkey, ${personId(ctx)} as pid from (${slots(ctx, 'other')}) s offset 0) a
-    offset 0
-  ) b
-  offset 0
-) j
+  from other_draws b`,
+      ],
+    ],
+    select: `select e.at, e.name, j.user_id, case when e.second then j.device2 else j.device1 end, ${ctx.raw}, j.version, e.props, j.country, j.channel
+from other_sessions j
 cross join lateral (values
-  (j.at0, ${sql.text('app_open')}, ${sql.json({ source: 'launcher' })}, ${app}, false),
-  (j.at0 + ${seconds('5 + 55 * j.j5')}, ${sql.text('ticket_scan')},
-    jsonb_build_object(${sql.text('line')}, ${sql.text('L')} || (1 + floor(j.j9 * 9))::int), ${app} and j.j6 < ${sql.num(0.8)}, false),
-  (j.at0 + ${seconds('(8 + 3 * (j.j10 - 0.5)) * 3600')}, ${sql.text('ticket_scan')},
-    jsonb_build_object(${sql.text('line')}, ${sql.text('L')} || (1 + floor(j.j11 * 9))::int), ${app} and j.j6 < ${sql.num(0.8 * 0.35)}, j.device2 is not null and j.j12 < 0.5),
+  (j.at0, ${sql.text('app_open')}, ${sql.json({ source: 'launcher' })}, ${ctx.app}, false),
+  (j.at0 + ${seconds('5 + 55 * j.j5')}, ${scan}, ${line('j.j9')}, ${ctx.app} and j.j6 < ${sql.num(SCAN_SHARE)}, false),
+  (j.at0 + ${seconds('(8 + 3 * (j.j10 - 0.5)) * 3600')}, ${scan}, ${line('j.j11')},
+    ${ctx.app} and j.j6 < ${sql.num(SCAN_SHARE * RETURN_TRIP)}, j.device2 is not null and j.j12 < 0.5),
   (j.at0 + ${seconds('20 + 180 * j.j7')}, ${sql.text('map_view')}, jsonb_build_object(${sql.text('layer')}, j.layer),
-    not ${app} or j.j7 < ${sql.num(0.3)}, false)
+    not ${ctx.app} or j.j7 < ${sql.num(MAP_IN_APP)}, false)
 ) as e(at, name, props, keep, second)
-where e.keep and e.at < ${ctx.cutoff}`;
+where e.keep and e.at < ${ctx.cutoff}`,
+  };
 }

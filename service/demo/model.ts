@@ -2,12 +2,13 @@
  * The "Metro Pass" demo scenario as numbers: platforms, volumes, conversion,
  * releases and the days the incidents happen. `planDay` turns them into one
  * day's plan (how many journeys of each kind per platform, which app versions
- * people run, which incidents are active); the SQL in `generate-sql.ts` then
+ * people run, which incidents are switched on); the SQL in `generate-sql.ts` then
  * expands each journey into events inside PostgreSQL.
  *
  * Everything random here is a hash of (seed, day, platform, kind), never a
  * shared generator, so a day comes out the same whatever range it is part of.
  */
+import { createHash } from 'node:crypto';
 import { addDays } from '../config/definitions.js';
 
 export const DEMO_TIMEZONE = 'America/New_York';
@@ -19,6 +20,8 @@ export interface Release {
   version: string;
   /** First day the version is seen; adoption then follows `adoption()`. */
   firstDay: string;
+  /** Share of people who eventually run it (or a newer one): the rest stay on older versions. */
+  ceiling: number;
 }
 
 export interface ConversionRates {
@@ -79,9 +82,9 @@ export const PLATFORMS: readonly PlatformModel[] = [
     ],
     baseVersions: ['7.2.1', '7.2.2', '7.2.3'],
     releases: [
-      { version: '7.3.0', firstDay: '2026-07-21' },
-      { version: '7.4.0', firstDay: '2026-10-13' },
-      { version: '7.4.1', firstDay: '2026-10-27' },
+      { version: '7.3.0', firstDay: '2026-07-21', ceiling: 0.94 },
+      { version: '7.4.0', firstDay: '2026-10-13', ceiling: 0.91 },
+      { version: '7.4.1', firstDay: '2026-10-27', ceiling: 0.91 },
     ],
   },
   {
@@ -98,8 +101,8 @@ export const PLATFORMS: readonly PlatformModel[] = [
     ],
     baseVersions: ['5.0.1', '5.0.2'],
     releases: [
-      { version: '5.1.0', firstDay: '2026-08-04' },
-      { version: '5.2.0', firstDay: '2026-11-04' },
+      { version: '5.1.0', firstDay: '2026-08-04', ceiling: 0.95 },
+      { version: '5.2.0', firstDay: '2026-11-04', ceiling: 0.92 },
     ],
   },
 ];
@@ -138,18 +141,24 @@ const TREND_PER_DAY = 0.0005;
 const DAY_NOISE = 0.04;
 const PLATFORM_NOISE = 0.03;
 /** Size of each platform's population of pass riders, in weekday pass journeys. */
-export const POOL_DAYS = 25;
+const POPULATION_DAYS = 25;
+/** Person numbers and journey slots stay below 2^25 (see generate-sql.ts): this bounds the scale. */
+export const MAX_SCALE = 500;
+
+export function riderPopulation(platform: PlatformModel, scale: number): number {
+  return Math.max(1, Math.round(platform.base.pass * scale * POPULATION_DAYS));
+}
 
 export type JourneyKind = 'pass' | 'signup' | 'other';
 export const JOURNEY_KINDS: readonly JourneyKind[] = ['pass', 'signup', 'other'];
 
 /**
- * Share of a platform's people running a release `t` days after its first day:
- * about 5% on day 1, 90% by day 8, the rest never updating.
+ * Share of a platform's people running a release (or a newer one) `t` days
+ * after its first day: about 5% on day 1 and 97% of the ceiling by day 8.
  */
-export function adoption(t: number): number {
+export function adoption(t: number, ceiling: number): number {
   if (t < 0) return 0;
-  return 0.93 / (1 + Math.exp(-0.9 * (t - 3.2)));
+  return ceiling / (1 + Math.exp(-0.9 * (t - 3.2)));
 }
 
 export interface ScenarioSwitches {
@@ -174,24 +183,35 @@ export interface PlatformDay {
   versions: VersionShare[];
 }
 
-export interface DayIncidents {
+/** Local days, inclusive. */
+export interface DayRange {
+  from: string;
+  to: string;
+}
+
+/**
+ * The incidents to inject. Ranges apply by event time (an outage drops the
+ * events sent on its days, whenever their journey began); versions apply
+ * whenever that version runs.
+ */
+export interface IncidentSwitches {
   /** App version that sends no rider_details screen view, if any. */
   dropRiderVersion: string | null;
   /** App version that sends `zone` instead of `fare_zone`, if any. */
   renameZoneVersion: string | null;
-  webPayReviewOutage: boolean;
-  androidDuplicates: boolean;
-  canadaDeclines: boolean;
-  /** Local time after which no events of this day (or later) arrive. */
-  cutoffLocalTime: string | null;
+  webPayReviewOutage: DayRange | null;
+  androidDuplicates: DayRange | null;
+  canadaDeclines: DayRange | null;
+  /** Nothing is delivered from this local day and time on. */
+  collectorStop: { day: string; time: string } | null;
 }
 
 export interface DayPlan {
   day: string;
-  /** Days since 2000-01-01: part of every random key. */
+  /** Days since 2000-01-01: keys the day's random streams. */
   dayNumber: number;
   platforms: PlatformDay[];
-  incidents: DayIncidents;
+  incidents: IncidentSwitches;
 }
 
 export function planDay(day: string, switches: ScenarioSwitches): DayPlan {
@@ -201,7 +221,6 @@ export function planDay(day: string, switches: ScenarioSwitches): DayPlan {
   const trend = Math.exp(TREND_PER_DAY * daysFrom(DEMO_FROM, day));
   const holiday = HOLIDAYS[day] ?? 1;
   const shared = DAY_NOISE * normal(`${switches.seed}|${day}|day`);
-  const on = switches.incidents;
 
   const platforms = PLATFORMS.map((platform): PlatformDay => {
     const own = PLATFORM_NOISE * normal(`${switches.seed}|${day}|${platform.id}|noise`);
@@ -209,12 +228,12 @@ export function planDay(day: string, switches: ScenarioSwitches): DayPlan {
     const journeys = {} as Record<JourneyKind, number>;
     for (const kind of JOURNEY_KINDS) {
       const mean = platform.base[kind] * switches.scale * WEEKDAY[kind][weekday]! * (monthStart ? MONTH_START[kind] : 1) * level;
-      // Poisson variation through its normal approximation (means are in the tens at least).
+      // Poisson-like variation through its normal approximation.
       const draw = mean + Math.sqrt(mean) * normal(`${switches.seed}|${day}|${platform.id}|${kind}`);
       journeys[kind] = Math.max(0, Math.round(draw));
     }
     const versions = platform.releases
-      .map((release) => ({ version: release.version, threshold: adoption(daysFrom(release.firstDay, day)) }))
+      .map((release) => ({ version: release.version, threshold: adoption(daysFrom(release.firstDay, day), release.ceiling) }))
       .filter((share) => share.threshold > 0)
       .reverse();
     return { platform, journeys, versions };
@@ -224,23 +243,25 @@ export function planDay(day: string, switches: ScenarioSwitches): DayPlan {
     day,
     dayNumber: daysFrom('2000-01-01', day),
     platforms,
-    incidents: {
-      dropRiderVersion: on ? RIDER_DROPPED_IN : null,
-      renameZoneVersion: on ? ZONE_RENAMED_IN : null,
-      webPayReviewOutage: on && within(day, INCIDENT_DAYS.webPayReviewOutage),
-      androidDuplicates: on && within(day, INCIDENT_DAYS.androidDuplicates),
-      canadaDeclines: on && within(day, INCIDENT_DAYS.canadaDeclines),
-      cutoffLocalTime: on && day === INCIDENT_DAYS.collectorDelay && day === switches.to ? COLLECTOR_STOPPED_AT : null,
-    },
+    incidents: incidentSwitches(switches),
+  };
+}
+
+export function incidentSwitches(switches: ScenarioSwitches): IncidentSwitches {
+  const on = switches.incidents;
+  return {
+    dropRiderVersion: on ? RIDER_DROPPED_IN : null,
+    renameZoneVersion: on ? ZONE_RENAMED_IN : null,
+    webPayReviewOutage: on ? INCIDENT_DAYS.webPayReviewOutage : null,
+    androidDuplicates: on ? INCIDENT_DAYS.androidDuplicates : null,
+    canadaDeclines: on ? INCIDENT_DAYS.canadaDeclines : null,
+    // A stalled collector only makes sense on the newest day; earlier it would be permanent loss.
+    collectorStop: on && switches.to === INCIDENT_DAYS.collectorDelay ? { day: switches.to, time: COLLECTOR_STOPPED_AT } : null,
   };
 }
 
 export function daysFrom(from: string, to: string): number {
   return Math.round((Date.parse(`${to}T00:00:00Z`) - Date.parse(`${from}T00:00:00Z`)) / 86_400_000);
-}
-
-function within(day: string, range: { from: string; to: string }): boolean {
-  return range.from <= day && day <= range.to;
 }
 
 /** Last day of a release's one-week rollout window (the day adoption passes ~90%). */
@@ -255,17 +276,8 @@ export function normal(key: string): number {
   return Math.sqrt(-2 * Math.log(u1)) * Math.cos(2 * Math.PI * u2);
 }
 
-/** A uniform draw in (0, 1) determined by `key`: FNV-1a, then the murmur3 finaliser to spread the bits. */
+/** A uniform draw in (0, 1) determined by `key`: 48 bits of its SHA-256. */
 export function uniform(key: string): number {
-  let h = 0x811c9dc5;
-  for (let i = 0; i < key.length; i++) {
-    h ^= key.charCodeAt(i);
-    h = Math.imul(h, 0x01000193);
-  }
-  h ^= h >>> 16;
-  h = Math.imul(h, 0x85ebca6b);
-  h ^= h >>> 13;
-  h = Math.imul(h, 0xc2b2ae35);
-  h ^= h >>> 16;
-  return ((h >>> 0) + 0.5) / 4_294_967_296;
+  const bits = createHash('sha256').update(key).digest().readUIntBE(0, 6);
+  return (bits + 0.5) / 2 ** 48;
 }

@@ -7,7 +7,7 @@ import type pg from 'pg';
 import { daysBetween } from '../config/definitions.js';
 import { quoteIdent, quoteQualified } from '../db/sql.js';
 import { createIndexQuery, createTableQueries, unitInsertQuery, type UnitSpec } from './generate-sql.js';
-import { DEFAULT_SEED, DEMO_TIMEZONE, JOURNEY_KINDS, planDay } from './model.js';
+import { DEFAULT_SEED, DEMO_TIMEZONE, JOURNEY_KINDS, MAX_SCALE, planDay } from './model.js';
 
 export { DEMO_FROM, DEMO_TIMEZONE, DEMO_TO, DEFAULT_SEED } from './model.js';
 export { GROUND_TRUTH_FILE, groundTruth, groundTruthFor, writeGroundTruth } from './ground-truth.js';
@@ -47,7 +47,7 @@ export async function generateScenario(pool: pg.Pool, options: ScenarioOptions, 
   const started = performance.now();
   const scale = options.scale ?? 1;
   const seed = options.seed ?? DEFAULT_SEED;
-  if (!(scale > 0)) throw new Error(`scenario scale must be positive, got ${scale}`);
+  if (!(scale > 0 && scale <= MAX_SCALE)) throw new Error(`scenario scale must be in (0, ${MAX_SCALE}], got ${scale}`);
   if (!Number.isSafeInteger(seed) || seed < 0 || seed > 2 ** 40) throw new Error(`scenario seed must be an integer in [0, 2^40], got ${seed}`);
   const days = daysBetween(options.from, options.to);
   if (days.length === 0) throw new Error(`scenario range is empty: ${options.from} .. ${options.to}`);
