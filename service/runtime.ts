@@ -51,7 +51,12 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
   const max = options.poolSize ?? 6;
   const warehouse = new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });
   const state = stateUrl === undefined || stateUrl === warehouseUrl ? warehouse : new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
-  for (const pool of new Set([warehouse, state])) pool.on('error', (error) => log.error({ err: error }, 'idle database connection failed'));
+  let closing = false;
+  for (const pool of new Set([warehouse, state])) {
+    pool.on('error', (error) => {
+      if (!closing) log.error({ err: error }, 'idle database connection failed');
+    });
+  }
   const stateSchema = config.main.state.schema;
   const applied = await migrate(state, stateSchema);
   if (applied.length > 0) log.info({ applied, schema: stateSchema }, 'state schema migrated');
@@ -66,6 +71,7 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     log,
     ...(embedded ? { embedded } : {}),
     async close() {
+      closing = true;
       await warehouse.end();
       if (state !== warehouse) await state.end();
       await embedded?.stop();

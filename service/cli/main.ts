@@ -1,4 +1,5 @@
 import { Command, CommanderError, InvalidArgumentError } from 'commander';
+import { demoCommand } from './commands/demo.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
 import { EXIT, ExitError } from './exit-codes.js';
@@ -42,7 +43,41 @@ program
     process.exitCode = await withRuntime(configDir(), (rt) => runCommand(rt, options));
   });
 
+program
+  .command('demo')
+  .description('generate the Metro Pass demo scenario into an embedded database, judge every day and print the picture')
+  .option('--days <n>', 'days shown in the day-by-day picture', integer, 21)
+  .option('--json', 'machine-readable output')
+  .action(async (options: { json?: boolean; days: number }) => {
+    process.exitCode = await withRuntime(configDir(), (rt) => demoCommand(rt, options), { forceEmbedded: true });
+  });
+
 // Further commands register here, one module each under service/cli/commands/.
+
+program
+  .command('digest')
+  .description('preview (--out FILE.html) or send (--send) the weekly digest per owner')
+  .option('--week <day>', 'any day of the week to report, YYYY-MM-DD (default: the last full week judged)')
+  .option('--owner <id...>', 'only these owners')
+  .option('--out <file>', 'write a browser preview of the digest(s) to this HTML file')
+  .option('--send', 'send by e-mail (without delivery.email.smtp_url: write .eml and .html files to delivery.outbox_dir)')
+  .option('--again', 'with --send: send even if this week was already sent')
+  .action(async (options) => {
+    const { digestCommand } = await import('./commands/digest.js');
+    process.exitCode = await withRuntime(configDir(), (rt) => digestCommand(rt, options));
+  });
+
+program
+  .command('outbox')
+  .description('list chat messages not yet delivered; --retry ID queues a parked one again, --send delivers what is due')
+  .option('--retry <id>', 'queue this parked message again', integer)
+  .option('--send', 'deliver the messages that are due now')
+  .option('--all', 'list delivered messages too')
+  .option('--json', 'machine-readable output')
+  .action(async (options) => {
+    const { outboxCommand } = await import('./commands/outbox.js');
+    process.exitCode = await withRuntime(configDir(), (rt) => outboxCommand(rt, options));
+  });
 
 program
   .command('serve')

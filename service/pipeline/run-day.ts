@@ -1,3 +1,4 @@
+import { dayEnd } from '../../checks/time.js';
 import { addDays } from '../config/definitions.js';
 import { quoteIdent } from '../db/sql.js';
 import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
@@ -81,43 +82,61 @@ export async function probeRestatements(rt: Runtime, day: string): Promise<strin
   return restated;
 }
 
-/** Judges every flow on `day` from the stored rollups and stores the findings. */
-export async function judgeFlows(rt: Runtime, day: string, options: RunOptions): Promise<FlowJudgement[]> {
+/**
+ * Judges every flow on each of `days` (consecutive, oldest first) from the
+ * stored rollups and stores the findings. History is loaded once per flow
+ * and sliced per day; findings of a day join the anomalous days the next
+ * day's baselines leave out, exactly as separate daily runs would see them.
+ */
+export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date): Promise<FlowJudgement[]> {
+  if (days.length === 0) return [];
   const historyDays = rt.config.main.judging.history_days;
-  const from = addDays(day, -(historyDays - 1));
+  const from = addDays(days[0]!, -(historyDays - 1));
   const results: FlowJudgement[] = [];
   for (const { config } of rt.config.flows) {
     const flow = rt.flows.find((f) => f.id === config.flow)!;
-    const judgement = await recordRun(rt, 'judge', day, flow.id, async () => {
-      const calendar = [...rt.config.main.calendar, ...config.calendar];
-      const history = await loadHistory(rt.state, rt.stateSchema, flow, calendar, from, day);
-      const anomalous = await loadAnomalousDays(rt.state, rt.stateSchema, flow.id, from, day);
-      const input = sliceInput(history, day, historyDays, anomalous, options.now.toISOString(), rt.timezone);
-      const result = judgeDay(input, config);
-      for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
-      const client = await rt.state.connect();
-      try {
-        await client.query('begin');
-        await storeJudgement(client, rt.stateSchema, flow.id, day, result.verdict, result.reason, result.findings);
-        await client.query('commit');
-      } catch (error) {
-        await client.query('rollback');
-        throw error;
-      } finally {
-        client.release();
-      }
-      return result;
-    });
-    results.push({ flow: flow.id, day, ...judgement });
+    const calendar = [...rt.config.main.calendar, ...config.calendar];
+    const history = await loadHistory(rt.state, rt.stateSchema, flow, calendar, from, days[days.length - 1]!);
+    const anomalous = await loadAnomalousDays(rt.state, rt.stateSchema, flow.id, from, days[0]!);
+    for (const day of days) {
+      const judgement = await recordRun(rt, 'judge', day, flow.id, async () => {
+        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone);
+        const result = judgeDay(input, config);
+        for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
+        const client = await rt.state.connect();
+        try {
+          await client.query('begin');
+          await storeJudgement(client, rt.stateSchema, flow.id, day, result.verdict, result.reason, result.findings);
+          await client.query('commit');
+        } catch (error) {
+          await client.query('rollback');
+          throw error;
+        } finally {
+          client.release();
+        }
+        return result;
+      });
+      for (const finding of judgement.findings) (anomalous[finding.seriesKey] ??= []).push(day);
+      results.push({ flow: flow.id, day, ...judgement });
+    }
   }
   return results;
+}
+
+/**
+ * The clock a day is judged by when it is replayed: the moment the daily run
+ * would have judged it (local midnight after the day, plus the settle time).
+ */
+export function replayClock(rt: Runtime): (day: string) => Date {
+  const settle = rt.config.main.judging.settle_time * 1000;
+  return (day) => new Date(dayEnd(day, rt.timezone).getTime() + settle);
 }
 
 /** The daily run for one business day: late-row probe, rollup, judgement. */
 export async function runDay(rt: Runtime, day: string, options: RunOptions): Promise<{ restated: string[]; rollup: RollupResult; judgements: FlowJudgement[] }> {
   const restated = await probeRestatements(rt, day);
   const [rollup] = await rollupRange(rt, [day]);
-  const judgements = await judgeFlows(rt, day, options);
+  const judgements = await judgeDays(rt, [day], () => options.now);
   return { restated, rollup: rollup!, judgements };
 }
 

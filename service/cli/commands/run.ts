@@ -1,7 +1,6 @@
 import { daysBetween } from '../../config/definitions.js';
-import { judgeFlows, rollupRange, runDay } from '../../pipeline/run-day.js';
+import { judgeDays, replayClock, rollupRange, runDay } from '../../pipeline/run-day.js';
 import type { Runtime } from '../../runtime.js';
-import { dayBounds } from '../../warehouse/queries.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { Progress } from '../progress.js';
 import { formatSummary, loadSummary } from '../summary.js';
@@ -15,15 +14,6 @@ export interface RunCommandOptions {
   days?: number;
 }
 
-/**
- * The clock a day is judged by when it is replayed: the moment the daily run
- * would have judged it (local midnight after the day, plus the settle time).
- */
-export async function replayClock(rt: Runtime, day: string): Promise<Date> {
-  const { rows } = await rt.warehouse.query<{ hi: Date }>(dayBounds(day, rt.timezone));
-  return new Date(rows[0]!.hi.getTime() + rt.config.main.judging.settle_time * 1000);
-}
-
 /** Rolls up every day of the range (in parallel), then judges them in order so baselines build up. */
 export async function runRange(rt: Runtime, from: string, to: string, options: { json?: boolean; judgeFrom?: string }): Promise<void> {
   const days = daysBetween(from, to);
@@ -31,11 +21,8 @@ export async function runRange(rt: Runtime, from: string, to: string, options: {
   await rollupRange(rt, days, { onProgress: (done, total, label) => rollups.update(done, total, label) });
   const judged = days.filter((day) => day >= (options.judgeFrom ?? from));
   const judging = new Progress('judge ', !options.json);
-  let done = 0;
-  for (const day of judged) {
-    await judgeFlows(rt, day, { now: await replayClock(rt, day) });
-    judging.update(++done, judged.length, day);
-  }
+  await judgeDays(rt, judged, replayClock(rt));
+  judging.update(judged.length, judged.length);
 }
 
 export async function runCommand(rt: Runtime, options: RunCommandOptions): Promise<number> {

@@ -1,0 +1,41 @@
+/**
+ * `plumbline demo`: the Metro Pass scenario generated into the embedded
+ * database, rolled up and judged day by day, as the daily run would have.
+ */
+import { join } from 'node:path';
+import { addDays } from '../config/definitions.js';
+import { quoteIdent } from '../db/sql.js';
+import { migrate } from '../db/migrate.js';
+import type { Runtime } from '../runtime.js';
+import { runRange } from '../cli/commands/run.js';
+import { Progress } from '../cli/progress.js';
+import { DEMO_FROM, DEMO_TO, generateScenario, writeGroundTruth } from './scenario.js';
+
+/** Days of history generated before the first judged day, so baselines have something to learn from. */
+export const DEMO_WARM_UP_DAYS = 28;
+export const DEMO_DIR = join('.plumbline', 'demo');
+
+export interface DemoResult {
+  from: string;
+  to: string;
+  judgedFrom: string;
+  events: number;
+  groundTruthPath: string;
+  millis: number;
+}
+
+export async function prepareDemo(rt: Runtime, options: { quiet?: boolean; dir?: string } = {}): Promise<DemoResult> {
+  const started = performance.now();
+  const [schema, table] = rt.mapping.table.includes('.') ? rt.mapping.table.split('.') : ['public', rt.mapping.table];
+  // A fresh state schema: the demo always replays the whole scenario.
+  await rt.state.query(`drop schema if exists ${quoteIdent(rt.stateSchema)} cascade`);
+  await migrate(rt.state, rt.stateSchema);
+  const generating = new Progress('generate', !options.quiet);
+  const generated = await generateScenario(rt.warehouse, { schema: schema!, table: table!, from: DEMO_FROM, to: DEMO_TO, replace: true }, (done, total, label) =>
+    generating.update(done, total, label),
+  );
+  const judgedFrom = addDays(DEMO_FROM, DEMO_WARM_UP_DAYS);
+  await runRange(rt, DEMO_FROM, DEMO_TO, { json: options.quiet ?? false, judgeFrom: judgedFrom });
+  const groundTruthPath = await writeGroundTruth(options.dir ?? DEMO_DIR);
+  return { from: DEMO_FROM, to: DEMO_TO, judgedFrom, events: generated.events, groundTruthPath, millis: performance.now() - started };
+}
