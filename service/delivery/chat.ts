@@ -1,0 +1,108 @@
+/**
+ * The chat message for an incident event, as an incoming-webhook payload with
+ * a block layout. Client text goes through `chatText` (cleaned, clipped,
+ * escaped); the owner's mention comes from reviewed config and is the only
+ * mention a message can carry. Link unfurling is off so no data-driven address
+ * gets a preview.
+ */
+import type { IncomingWebhookSendArguments } from '@slack/webhook';
+import type { Severity } from '../../checks/types.js';
+import type { Incident, IncidentEvent } from '../incidents/types.js';
+import type { IncidentPresentation } from './present.js';
+import { chatText, cleanText, escapeChat, fitChat } from './text.js';
+
+export type ChatMessage = IncomingWebhookSendArguments & { text: string; blocks: NonNullable<IncomingWebhookSendArguments['blocks']> };
+
+/** Section text is limited to 3,000 characters and a field to 2,000 (Slack Block Kit reference, "Section block"). */
+const SECTION_MAX = 3000;
+const FIELD_MAX = 2000;
+/** Limits for client strings, before escaping. */
+const HEADLINE_MAX = 200;
+const SENTENCE_MAX = 600;
+const SYMPTOM_MAX = 300;
+
+const SEVERITY_MARK: Record<Severity, string> = { page: ':red_circle:', warn: ':large_orange_circle:', note: ':white_circle:' };
+
+/** A configured mention such as `<!subteam^S0GROWTH>` or `<@U024BE7LH>`; anything else is shown as text. */
+const MENTION = /^<[@!#][^<>\s]*>$/;
+
+export interface ChatInput {
+  event: IncidentEvent;
+  incident: Incident;
+  presentation: IncidentPresentation;
+  /** The owner's configured mention, if any. */
+  mention?: string | undefined;
+  /** The incident page. */
+  url: string;
+  /** For `severity_raised`: the severity announced before. */
+  previousSeverity?: Severity | null;
+  resolveAfterDays: number;
+}
+
+function section(text: string, max = SECTION_MAX) {
+  return { type: 'section' as const, text: { type: 'mrkdwn' as const, text: fitChat(text, max) } };
+}
+
+function ownerText(owner: string, mention: string | undefined): string {
+  if (mention !== undefined && MENTION.test(mention)) return mention;
+  return chatText(mention ?? owner, 80);
+}
+
+/** Link text and address for mrkdwn `<url|text>`: the address is ours, `|` and `>` would end it early. */
+function link(url: string, text: string): string {
+  return `<${url.replace(/\|/g, '%7C').replace(/>/g, '%3E').replace(/</g, '%3C')}|${escapeChat(text)}>`;
+}
+
+export function renderChatMessage(input: ChatInput): ChatMessage {
+  const { event, incident, presentation: p } = input;
+  const headline = chatText(p.headline, HEADLINE_MAX);
+  const flow = chatText(incident.flow, 80);
+  const where = chatText(p.where, 120);
+  const owner = ownerText(incident.owner, input.mention);
+  const blocks: ChatMessage['blocks'] = [];
+  let fallback: string;
+  if (event === 'resolved') {
+    const lasted = `${incident.openedDay} to ${incident.lastSeenDay}, seen on ${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'}`;
+    const why =
+      incident.resolution === 'withdrawn'
+        ? `Judging ${incident.resolvedDay} again no longer shows it.`
+        : `Not seen on ${input.resolveAfterDays} judged day${input.resolveAfterDays === 1 ? '' : 's'} after ${incident.lastSeenDay}.`;
+    fallback = `Resolved: ${headline} (${flow}, ${where})`;
+    blocks.push(section(`:white_check_mark: *Resolved* · ${flow} · ${where}\n*${headline}*`));
+    blocks.push(section(`${why} It lasted ${lasted}. Owner: ${chatText(incident.owner, 80)}.`));
+  } else {
+    const mark = SEVERITY_MARK[incident.severity];
+    const what =
+      event === 'opened'
+        ? `*Opened* · ${incident.severity}`
+        : `*Severity raised to ${incident.severity}*${input.previousSeverity ? ` (was ${input.previousSeverity})` : ''}`;
+    fallback = `[${incident.severity}] ${event === 'opened' ? 'Opened' : 'Severity raised'}: ${headline} (${flow}, ${where})`;
+    blocks.push(section(`${mark} ${what} · ${flow} · ${where}\n*${headline}*`));
+    blocks.push(section(`Owner: ${owner}`));
+    const fields = [
+      `*Since*\n${incident.since} (${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'})`,
+      `*Where*\n${where}`,
+    ];
+    if (p.observed !== null && p.expected !== null) {
+      fields.push(`*Observed* (${chatText(p.metric ?? '', 60)})\n${chatText(p.observed, 60)}`, `*Expected*\n${chatText(p.expected, 120)}`);
+    }
+    blocks.push({ type: 'section', fields: fields.map((text) => ({ type: 'mrkdwn' as const, text: fitChat(text, FIELD_MAX) })) });
+    const evidence = p.cause.evidence.map(({ key, value }) => `${chatText(key, 60)}: ${chatText(value, 60)}`).join(' · ');
+    blocks.push(
+      section(
+        `*Likely cause:* ${chatText(p.cause.label, 60)} (confidence ${p.cause.confidence})\n${chatText(p.cause.sentence, SENTENCE_MAX)}` +
+          (evidence ? `\nEvidence: ${evidence}` : ''),
+      ),
+    );
+    if (p.symptoms.length > 0) {
+      blocks.push(section(p.symptoms.map((s) => `• ${chatText(s.check, 40)}: ${chatText(s.text, SYMPTOM_MAX)}`).join('\n')));
+    }
+  }
+  blocks.push(section(link(input.url, `Open incident ${incident.id}`)));
+  return { text: fitChat(fallback, 300), blocks, unfurl_links: false, unfurl_media: false };
+}
+
+/** One plain line for the CLI and the status page. */
+export function summaryLine(event: IncidentEvent, incident: Incident, presentation: IncidentPresentation): string {
+  return cleanText(`${event} ${incident.id} [${incident.severity}] ${presentation.headline} (${presentation.where})`, 300);
+}

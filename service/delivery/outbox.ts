@@ -1,0 +1,161 @@
+/**
+ * The transactional outbox: messages are queued in the same transaction as the
+ * incident change that causes them, then a sender claims, posts and
+ * acknowledges them one by one. States: pending -> sending -> sent, or parked
+ * after too many failures (until a person requeues it).
+ */
+import type pg from 'pg';
+import { quoteIdent } from '../db/sql.js';
+import type { Db } from '../incidents/store.js';
+import type { IncidentEvent } from '../incidents/types.js';
+import type { ChatMessage } from './chat.js';
+
+export type OutboxState = 'pending' | 'sending' | 'sent' | 'parked';
+
+export interface OutboxMessage {
+  id: number;
+  channel: 'chat';
+  incidentId: string;
+  event: IncidentEvent;
+  day: string;
+  idempotencyKey: string;
+  payload: ChatMessage;
+  summary: string;
+  state: OutboxState;
+  attempts: number;
+  nextAttemptAt: Date;
+  leaseUntil: Date | null;
+  claimedBy: string | null;
+  lastError: string | null;
+  createdAt: Date;
+  sentAt: Date | null;
+  parkedAt: Date | null;
+}
+
+const columns = (alias = '') => `${alias}id::int as id, channel, incident_id as "incidentId", event, to_char(day, 'YYYY-MM-DD') as day, idempotency_key as "idempotencyKey",
+  payload, summary, state, attempts, next_attempt_at as "nextAttemptAt", lease_until as "leaseUntil", claimed_by as "claimedBy",
+  last_error as "lastError", created_at as "createdAt", sent_at as "sentAt", parked_at as "parkedAt"`;
+const COLUMNS = columns();
+
+/** Stable per (incident, event, day): the same on every retry, after a restart, and on any replica. */
+export function idempotencyKey(incidentId: string, event: IncidentEvent, day: string): string {
+  return `plumbline.${incidentId}.${event}.${day}`;
+}
+
+/** Queues a chat message unless one exists for (incident, event, day); returns whether it was added. */
+export async function enqueueChat(
+  client: pg.ClientBase,
+  schema: string,
+  message: { incidentId: string; event: IncidentEvent; day: string; payload: ChatMessage; summary: string },
+  now: Date,
+): Promise<boolean> {
+  const { rowCount } = await client.query({
+    text: `insert into ${quoteIdent(schema)}.outbox (channel, incident_id, event, day, idempotency_key, payload, summary, next_attempt_at, created_at)
+      values ('chat', $1, $2, $3, $4, $5, $6, $7, $7)
+      on conflict (incident_id, event, day) do nothing`,
+    values: [
+      message.incidentId,
+      message.event,
+      message.day,
+      idempotencyKey(message.incidentId, message.event, message.day),
+      JSON.stringify(message.payload),
+      message.summary,
+      now,
+    ],
+  });
+  return rowCount === 1;
+}
+
+/** Withdraws messages of an incident event that nobody has tried to send yet (a rerun changed its mind). */
+export async function withdrawPending(client: pg.ClientBase, schema: string, incidentId: string, event: IncidentEvent): Promise<void> {
+  await client.query({
+    text: `delete from ${quoteIdent(schema)}.outbox where incident_id = $1 and event = $2 and state = 'pending' and attempts = 0`,
+    values: [incidentId, event],
+  });
+}
+
+/**
+ * Claims the oldest due chat message (several senders may run: `skip locked`
+ * lets each take a different one). A message waits while an earlier message
+ * of the same incident is unsent, so "resolved" never overtakes "opened". A
+ * `sending` message whose lease has passed was left by a sender that died and
+ * is claimed again, keeping its idempotency key. A message never tried is due
+ * at once, whatever clock queued it (replays queue with the replayed day's
+ * clock). The attempt is counted here, before the post, so a crash mid-post
+ * still counts.
+ */
+export async function claimNext(pool: pg.Pool, schema: string, now: Date, leaseMs: number, runner: string): Promise<OutboxMessage | undefined> {
+  const s = quoteIdent(schema);
+  const { rows } = await pool.query<OutboxMessage>({
+    text: `with next as (
+        select o.id from ${s}.outbox o
+        where o.channel = 'chat'
+          and ((o.state = 'pending' and (o.attempts = 0 or o.next_attempt_at <= $1)) or (o.state = 'sending' and o.lease_until <= $1))
+          and not exists (
+            select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending'))
+        order by o.id
+        limit 1
+        for update of o skip locked)
+      update ${s}.outbox o set state = 'sending', attempts = o.attempts + 1, lease_until = $2, claimed_by = $3
+      from next where o.id = next.id
+      returning ${columns('o.')}`,
+    values: [now, new Date(now.getTime() + leaseMs), runner],
+  });
+  return rows[0];
+}
+
+export async function markSent(pool: pg.Pool, schema: string, id: number, now: Date): Promise<void> {
+  await pool.query({
+    text: `update ${quoteIdent(schema)}.outbox set state = 'sent', sent_at = $2, lease_until = null, last_error = null where id = $1 and state = 'sending'`,
+    values: [id, now],
+  });
+}
+
+/** Records a failed attempt: back to pending until `retryAt`, or parked. */
+export async function markFailed(pool: pg.Pool, schema: string, id: number, error: string, outcome: { retryAt: Date } | { parkedAt: Date }): Promise<void> {
+  const parked = 'parkedAt' in outcome;
+  await pool.query({
+    text: `update ${quoteIdent(schema)}.outbox
+      set state = $2, last_error = $3, lease_until = null, next_attempt_at = coalesce($4, next_attempt_at), parked_at = $5
+      where id = $1 and state = 'sending'`,
+    values: [id, parked ? 'parked' : 'pending', error, parked ? null : outcome.retryAt, parked ? outcome.parkedAt : null],
+  });
+}
+
+/** When the next unsent chat message becomes claimable (leaving out those queued behind an earlier one), if any is left. */
+export async function nextDue(pool: pg.Pool, schema: string, now: Date): Promise<Date | undefined> {
+  const s = quoteIdent(schema);
+  const { rows } = await pool.query<{ due: Date | null }>({
+    text: `select min(case when o.state = 'sending' then o.lease_until when o.attempts = 0 then $1 else o.next_attempt_at end) as due
+      from ${s}.outbox o where o.channel = 'chat' and o.state in ('pending', 'sending')
+        and not exists (select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending'))`,
+    values: [now],
+  });
+  return rows[0]?.due ?? undefined;
+}
+
+/** Messages in the given states, oldest first (the CLI and the status page). */
+export async function listOutbox(db: Db, schema: string, states: readonly OutboxState[], limit = 200): Promise<OutboxMessage[]> {
+  const { rows } = await db.query<OutboxMessage>({
+    text: `select ${COLUMNS} from ${quoteIdent(schema)}.outbox where state = any($1) order by id limit $2`,
+    values: [states, limit],
+  });
+  return rows;
+}
+
+/** Counts per state (the status page). */
+export async function outboxCounts(db: Db, schema: string): Promise<Record<OutboxState, number>> {
+  const { rows } = await db.query<{ state: OutboxState; n: number }>(`select state, count(*)::int as n from ${quoteIdent(schema)}.outbox group by state`);
+  const counts: Record<OutboxState, number> = { pending: 0, sending: 0, sent: 0, parked: 0 };
+  for (const row of rows) counts[row.state] = row.n;
+  return counts;
+}
+
+/** Puts a parked message back in the queue with a fresh count of attempts; false when no parked message has that id. */
+export async function requeue(db: Db, schema: string, id: number, now: Date): Promise<boolean> {
+  const { rowCount } = await db.query({
+    text: `update ${quoteIdent(schema)}.outbox set state = 'pending', attempts = 0, next_attempt_at = $2, parked_at = null where id = $1 and state = 'parked'`,
+    values: [id, now],
+  });
+  return rowCount === 1;
+}

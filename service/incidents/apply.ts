@@ -1,0 +1,263 @@
+/**
+ * The incident lifecycle. Called inside the transaction that stores a judged
+ * (flow, day)'s findings, it turns that day's incident drafts into incidents
+ * (opened, ongoing, resolved) and queues their chat messages in the outbox, so
+ * a finding, its incident and its message commit or roll back together.
+ *
+ * Everything is derived from two tables, so a rerun of (flow, day) leaves
+ * exactly what the first run left: `incident_days` (one sighting per incident
+ * and judged day; a rerun replaces the day's sightings) and `judged_days` (the
+ * verdicts the resolution counts). Messages are unique per (incident, event,
+ * day), and an incident remembers what it last announced, so a rerun cannot
+ * queue a message twice.
+ */
+import { createHash } from 'node:crypto';
+import type pg from 'pg';
+import type { IncidentDraft } from '../../checks/causes/types.js';
+import type { Day, Severity } from '../../checks/types.js';
+import type { MainConfig } from '../config/schema.js';
+import { quoteIdent } from '../db/sql.js';
+import { renderChatMessage, summaryLine } from '../delivery/chat.js';
+import { enqueueChat, withdrawPending } from '../delivery/outbox.js';
+import { presentIncident } from '../delivery/present.js';
+import { loadValuePolicy, paramKeysOf } from '../delivery/privacy.js';
+import { latestSightings, loadIncidents } from './store.js';
+import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentEvent, type IncidentPolicy } from './types.js';
+
+export function incidentPolicy(main: MainConfig): IncidentPolicy {
+  return {
+    resolveAfterDays: main.incidents.resolve_after_days,
+    renotifyCooldownSeconds: main.incidents.renotify_cooldown,
+    publicUrl: main.http.public_url,
+    owners: main.owners,
+    hideValues: main.delivery.hide_values,
+  };
+}
+
+/** `<flow>-<yyyymmdd>-<8 hex of the fingerprint>`: derived, so a rerun finds the same id; readable in a URL. */
+export function incidentId(flow: string, fingerprint: string, openedDay: Day): string {
+  return `${flow}-${openedDay.replaceAll('-', '')}-${createHash('sha256').update(fingerprint).digest('hex').slice(0, 8)}`;
+}
+
+export interface IncidentChanges {
+  /** Incidents first seen on this day. */
+  opened: string[];
+  /** Incidents seen again on this day. */
+  ongoing: string[];
+  /** Incidents that resolved with this day. */
+  resolved: string[];
+  /** Chat messages queued. */
+  queued: number;
+}
+
+const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
+
+/** Drafts with the same fingerprint are one incident: the cause analysis should not emit two, but one sighting per day is a hard rule. */
+function mergeDrafts(drafts: readonly IncidentDraft[]): IncidentDraft[] {
+  const byFingerprint = new Map<string, IncidentDraft>();
+  for (const draft of drafts) {
+    const seen = byFingerprint.get(draft.fingerprint);
+    if (!seen) {
+      byFingerprint.set(draft.fingerprint, draft);
+      continue;
+    }
+    const lead = SEVERITY_RANK[draft.severity] > SEVERITY_RANK[seen.severity] ? draft : seen;
+    byFingerprint.set(draft.fingerprint, {
+      ...lead,
+      since: draft.since < seen.since ? draft.since : seen.since,
+      symptoms: [...seen.symptoms, ...draft.symptoms],
+      muted: seen.muted && draft.muted,
+    });
+  }
+  return [...byFingerprint.values()];
+}
+
+/**
+ * Applies the incident drafts of one judged (flow, day), inside the caller's
+ * transaction (after the day's verdict is stored in `judged_days`). `now` is
+ * the run's clock: it stamps rows and measures the re-notification cooldown.
+ */
+export async function applyIncidentDrafts(
+  client: pg.ClientBase,
+  schema: string,
+  flow: string,
+  day: Day,
+  drafts: readonly IncidentDraft[],
+  policy: IncidentPolicy,
+  now: Date,
+): Promise<IncidentChanges> {
+  for (const draft of drafts) {
+    if (draft.flow !== flow || draft.day !== day) throw new Error(`incident draft ${draft.fingerprint} is for ${draft.flow} on ${draft.day}, not ${flow} on ${day}`);
+  }
+  const s = quoteIdent(schema);
+  // Replicas judging the same flow take turns, so two cannot open the same incident twice.
+  await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.incidents.${schema}.${flow}`] });
+  const changes: IncidentChanges = { opened: [], ongoing: [], resolved: [], queued: 0 };
+
+  const { rows: earlier } = await client.query<{ id: string }>({
+    text: `delete from ${s}.incident_days where flow = $1 and day = $2 returning incident_id as id`,
+    values: [flow, day],
+  });
+  const touched = new Set(earlier.map((row) => row.id));
+  const seen = new Set<string>();
+  for (const draft of mergeDrafts(drafts)) {
+    // The episode of this fingerprint that covers the day: opened on or before it and not resolved before it.
+    const { rows } = await client.query<{ id: string; openedDay: Day }>({
+      text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents where flow = $1 and fingerprint = $2 and opened_day <= $3 and (resolved_day is null or resolved_day >= $3)
+        order by opened_day desc limit 1 for update`,
+      values: [flow, draft.fingerprint, day],
+    });
+    let id = rows[0]?.id;
+    if (id === undefined) {
+      id = incidentId(flow, draft.fingerprint, day);
+      await client.query({
+        text: `insert into ${s}.incidents (id, fingerprint, flow, owner, status, severity, muted, title, subject, platform, version, cause_label,
+            since, opened_day, last_seen_day, days_seen, opened_at, updated_at)
+          values ($1, $2, $3, $4, 'open', $5, $6, $7, $8, $9, $10, $11, $12, $13, $13, 1, $14, $14)`,
+        values: [id, draft.fingerprint, flow, draft.owner, draft.severity, draft.muted, draft.title, draft.subject, draft.platform, draft.version, draft.cause.label, draft.since, day, now],
+      });
+    }
+    ((rows[0]?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    await client.query({
+      text: `insert into ${s}.incident_days (incident_id, flow, day, since, severity, muted, title, cause, symptoms)
+        values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
+      values: [id, flow, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms)],
+    });
+    touched.add(id);
+    seen.add(id);
+  }
+  await refreshFromSightings(client, s, [...touched], now);
+  const resolved = await settle(client, schema, flow, day, [...touched], policy, now);
+  changes.resolved = resolved.map((incident) => incident.id);
+  changes.queued += await announceResolved(client, schema, resolved, policy, now);
+  changes.queued += await announceSeen(client, schema, [...seen], day, policy, now);
+  return changes;
+}
+
+/** Recomputes an incident's days, latest details and highest severity from its sightings. */
+async function refreshFromSightings(client: pg.ClientBase, s: string, ids: string[], now: Date): Promise<void> {
+  if (ids.length === 0) return;
+  await client.query({
+    text: `with t as (select unnest($1::text[]) as id),
+      agg as (
+        select d.incident_id, count(*)::int as n, max(d.day) as last_day, min(d.since) as since,
+          max(case d.severity when 'page' then 3 when 'warn' then 2 else 1 end) as rank
+        from ${s}.incident_days d join t on t.id = d.incident_id group by d.incident_id),
+      latest as (
+        select distinct on (d.incident_id) d.incident_id, d.title, d.muted, d.cause->>'label' as label
+        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, d.day desc)
+      update ${s}.incidents i set
+        days_seen = coalesce(agg.n, 0),
+        last_seen_day = coalesce(agg.last_day, i.last_seen_day),
+        since = coalesce(agg.since, i.since),
+        severity = coalesce(($3::text[])[agg.rank], i.severity),
+        title = coalesce(latest.title, i.title),
+        muted = coalesce(latest.muted, i.muted),
+        cause_label = coalesce(latest.label, i.cause_label),
+        updated_at = $2
+      from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id
+      where i.id = t.id`,
+    values: [ids, now, SEVERITIES],
+  });
+}
+
+interface SettleRow {
+  id: string;
+  status: string;
+  resolvedDay: Day | null;
+  resolution: string | null;
+  daysSeen: number;
+  cleanDay: Day | null;
+}
+
+/**
+ * Sets each affected incident's state from its sightings and the flow's
+ * verdicts: resolved on the `resolve_after_days`-th judged day after it was
+ * last seen (`not_ready` days do not count as clean), withdrawn when a rerun
+ * left it without sightings, open or ongoing otherwise. Returns the incidents
+ * that became resolved.
+ */
+async function settle(client: pg.ClientBase, schema: string, flow: string, day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
+  const s = quoteIdent(schema);
+  const { rows } = await client.query<SettleRow>({
+    text: `select i.id, i.status, to_char(i.resolved_day, 'YYYY-MM-DD') as "resolvedDay", i.resolution, i.days_seen as "daysSeen",
+        (select to_char(j.day, 'YYYY-MM-DD') from ${s}.judged_days j
+          where j.flow = i.flow and j.verdict = 'judged' and j.day > i.last_seen_day order by j.day offset $3 limit 1) as "cleanDay"
+      from ${s}.incidents i
+      where i.flow = $1 and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4))
+      order by i.id for update of i`,
+    values: [flow, day, policy.resolveAfterDays - 1, touched],
+  });
+  const newlyResolved: string[] = [];
+  for (const row of rows) {
+    let target: { status: string; resolvedDay: Day | null; resolution: string | null };
+    if (row.daysSeen === 0) target = { status: 'resolved', resolvedDay: row.resolution === 'withdrawn' ? row.resolvedDay : day, resolution: 'withdrawn' };
+    else if (row.cleanDay !== null) target = { status: 'resolved', resolvedDay: row.cleanDay, resolution: 'clean_days' };
+    else target = { status: row.daysSeen >= 2 ? 'ongoing' : 'open', resolvedDay: null, resolution: null };
+    if (target.status === row.status && target.resolvedDay === row.resolvedDay && target.resolution === row.resolution) continue;
+    // A resolution that no longer holds (a rerun saw it again) takes back its message if nobody has tried to send it yet.
+    if (row.resolvedDay !== null && target.resolvedDay !== row.resolvedDay) await withdrawPending(client, schema, row.id, 'resolved');
+    await client.query({
+      text: `update ${s}.incidents set status = $2, resolved_day = $3, resolution = $4, resolved_at = case when $3::date is null then null else $5::timestamptz end, updated_at = $5
+        where id = $1`,
+      values: [row.id, target.status, target.resolvedDay, target.resolution, now],
+    });
+    if (target.resolvedDay !== null) newlyResolved.push(row.id);
+  }
+  return newlyResolved.length === 0 ? [] : await loadIncidents(client, schema, newlyResolved);
+}
+
+/** A resolution is announced only for incidents whose opening was: muted ones come and go silently. */
+async function announceResolved(client: pg.ClientBase, schema: string, incidents: Incident[], policy: IncidentPolicy, now: Date): Promise<number> {
+  let queued = 0;
+  for (const incident of incidents) {
+    if (incident.notifiedSeverity === null) continue;
+    if (await queue(client, schema, 'resolved', incident, incident.resolvedDay!, policy, now)) queued++;
+  }
+  return queued;
+}
+
+/**
+ * Announces the unresolved, unmuted incidents seen on the day: "opened" the
+ * first time, "severity raised" when the severity is above what was last
+ * announced and the cooldown since that announcement has passed (a rise
+ * within the cooldown is announced once the cooldown is over, if it holds).
+ */
+async function announceSeen(client: pg.ClientBase, schema: string, ids: string[], day: Day, policy: IncidentPolicy, now: Date): Promise<number> {
+  if (ids.length === 0) return 0;
+  const s = quoteIdent(schema);
+  let queued = 0;
+  for (const incident of await loadIncidents(client, schema, ids)) {
+    if (incident.muted || incident.status === 'resolved') continue;
+    let event: IncidentEvent;
+    if (incident.notifiedSeverity === null) event = 'opened';
+    else if (
+      SEVERITY_RANK[incident.severity] > SEVERITY_RANK[incident.notifiedSeverity] &&
+      (incident.lastNotifiedAt === null || now.getTime() - Date.parse(incident.lastNotifiedAt) >= policy.renotifyCooldownSeconds * 1000)
+    ) {
+      event = 'severity_raised';
+    } else continue;
+    if (await queue(client, schema, event, incident, day, policy, now)) queued++;
+    await client.query({
+      text: `update ${s}.incidents set notified_severity = severity, last_notified_at = $2 where id = $1`,
+      values: [incident.id, now],
+    });
+  }
+  return queued;
+}
+
+async function queue(client: pg.ClientBase, schema: string, event: IncidentEvent, incident: Incident, day: Day, policy: IncidentPolicy, now: Date): Promise<boolean> {
+  const sighting = (await latestSightings(client, schema, [incident.id])).get(incident.id);
+  const values = await loadValuePolicy(client, schema, policy.hideValues, paramKeysOf(sighting?.symptoms ?? []), incident.since, incident.lastSeenDay);
+  const presentation = presentIncident(incident, sighting, values);
+  const payload = renderChatMessage({
+    event,
+    incident,
+    presentation,
+    mention: policy.owners[incident.owner]?.chat_mention,
+    url: incidentUrl(policy.publicUrl, incident.id),
+    previousSeverity: incident.notifiedSeverity,
+    resolveAfterDays: policy.resolveAfterDays,
+  });
+  return await enqueueChat(client, schema, { incidentId: incident.id, event, day, payload, summary: summaryLine(event, incident, presentation) }, now);
+}

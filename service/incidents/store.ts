@@ -1,0 +1,101 @@
+/**
+ * Reads of the incident tables, shared by the incident lifecycle, the digest,
+ * the CLI and the incident pages.
+ */
+import type pg from 'pg';
+import type { Day } from '../../checks/types.js';
+import { quoteIdent, type Query } from '../db/sql.js';
+import type { Incident, Sighting } from './types.js';
+
+/** A pool or a client inside a transaction. */
+export type Db = pg.Pool | pg.ClientBase;
+
+const day = (column: string, as: string) => `to_char(${column}, 'YYYY-MM-DD') as "${as}"`;
+
+const INCIDENT_COLUMNS = [
+  'id',
+  'fingerprint',
+  'flow',
+  'owner',
+  'status',
+  'severity',
+  'muted',
+  'title',
+  'subject',
+  'platform',
+  'version',
+  'cause_label as "causeLabel"',
+  day('since', 'since'),
+  day('opened_day', 'openedDay'),
+  day('last_seen_day', 'lastSeenDay'),
+  'days_seen as "daysSeen"',
+  day('resolved_day', 'resolvedDay'),
+  'resolution',
+  'notified_severity as "notifiedSeverity"',
+  'last_notified_at as "lastNotifiedAt"',
+  'opened_at as "openedAt"',
+  'updated_at as "updatedAt"',
+  'resolved_at as "resolvedAt"',
+].join(', ');
+
+type IncidentRow = Omit<Incident, 'lastNotifiedAt' | 'openedAt' | 'updatedAt' | 'resolvedAt'> & {
+  lastNotifiedAt: Date | null;
+  openedAt: Date;
+  updatedAt: Date;
+  resolvedAt: Date | null;
+};
+
+function toIncident(row: IncidentRow): Incident {
+  return {
+    ...row,
+    lastNotifiedAt: row.lastNotifiedAt?.toISOString() ?? null,
+    openedAt: row.openedAt.toISOString(),
+    updatedAt: row.updatedAt.toISOString(),
+    resolvedAt: row.resolvedAt?.toISOString() ?? null,
+  };
+}
+
+export async function queryIncidents(db: Db, query: Query): Promise<Incident[]> {
+  const { rows } = await db.query<IncidentRow>(query);
+  return rows.map(toIncident);
+}
+
+export async function loadIncident(db: Db, schema: string, id: string): Promise<{ incident: Incident; sightings: Sighting[] } | undefined> {
+  const [incident] = await queryIncidents(db, { text: `select ${INCIDENT_COLUMNS} from ${quoteIdent(schema)}.incidents where id = $1`, values: [id] });
+  if (!incident) return undefined;
+  return { incident, sightings: await loadSightings(db, schema, [id]) };
+}
+
+export async function loadIncidents(db: Db, schema: string, ids: string[]): Promise<Incident[]> {
+  return await queryIncidents(db, { text: `select ${INCIDENT_COLUMNS} from ${quoteIdent(schema)}.incidents where id = any($1) order by id`, values: [ids] });
+}
+
+/** Incidents of `flows` that were unresolved at some point of [from, to], newest first. */
+export async function listIncidents(db: Db, schema: string, options: { flows: string[]; from: Day; to: Day }): Promise<Incident[]> {
+  return await queryIncidents(db, {
+    text: `select ${INCIDENT_COLUMNS} from ${quoteIdent(schema)}.incidents
+      where flow = any($1) and opened_day <= $3 and (resolved_day is null or resolved_day >= $2)
+      order by opened_day desc, id`,
+    values: [options.flows, options.from, options.to],
+  });
+}
+
+/** Sightings of the given incidents, oldest first. */
+export async function loadSightings(db: Db, schema: string, ids: string[]): Promise<Sighting[]> {
+  const { rows } = await db.query<Sighting>({
+    text: `select incident_id as "incidentId", ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
+      from ${quoteIdent(schema)}.incident_days where incident_id = any($1) order by incident_id, day`,
+    values: [ids],
+  });
+  return rows;
+}
+
+/** The latest sighting of each incident. */
+export async function latestSightings(db: Db, schema: string, ids: string[]): Promise<Map<string, Sighting>> {
+  const { rows } = await db.query<Sighting>({
+    text: `select distinct on (incident_id) incident_id as "incidentId", ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
+      from ${quoteIdent(schema)}.incident_days where incident_id = any($1) order by incident_id, day desc`,
+    values: [ids],
+  });
+  return new Map(rows.map((row) => [row.incidentId, row]));
+}

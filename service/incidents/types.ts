@@ -1,0 +1,71 @@
+/**
+ * Incidents as stored in the state schema (002_incidents_outbox.sql): one row
+ * per fingerprint episode plus one sighting per judged day it was seen.
+ */
+import type { Cause } from '../../checks/causes/types.js';
+import type { Day, Finding, Severity } from '../../checks/types.js';
+
+export type IncidentStatus = 'open' | 'ongoing' | 'resolved';
+/** What a chat message announces. */
+export type IncidentEvent = 'opened' | 'severity_raised' | 'resolved';
+
+export interface Incident {
+  /** Stable and URL-safe: the page is `${http.public_url}/incidents/${id}`. */
+  id: string;
+  fingerprint: string;
+  flow: string;
+  owner: string;
+  status: IncidentStatus;
+  /** Highest severity of any sighting. */
+  severity: Severity;
+  /** The latest sighting was muted. */
+  muted: boolean;
+  title: string;
+  subject: string;
+  platform: string | null;
+  version: string | null;
+  causeLabel: string;
+  since: Day;
+  openedDay: Day;
+  lastSeenDay: Day;
+  daysSeen: number;
+  resolvedDay: Day | null;
+  resolution: 'clean_days' | 'withdrawn' | null;
+  notifiedSeverity: Severity | null;
+  lastNotifiedAt: string | null;
+  openedAt: string;
+  updatedAt: string;
+  resolvedAt: string | null;
+}
+
+/** What was seen of an incident on one judged day. */
+export interface Sighting {
+  incidentId: string;
+  day: Day;
+  since: Day;
+  severity: Severity;
+  muted: boolean;
+  title: string;
+  cause: Cause;
+  symptoms: Finding[];
+}
+
+/** The part of the configuration incidents and their messages follow. */
+export interface IncidentPolicy {
+  /** An incident resolves after this many judged days of its flow without it. */
+  resolveAfterDays: number;
+  /** At most one repeat announcement (a severity rise) per incident within this many seconds. */
+  renotifyCooldownSeconds: number;
+  /** Base URL of the incident pages. */
+  publicUrl: string;
+  owners: Record<string, { chat_mention?: string; email: string[] }>;
+  /** Never show parameter values. */
+  hideValues: boolean;
+}
+
+export const SEVERITY_RANK: Record<Severity, number> = { note: 1, warn: 2, page: 3 };
+
+/** The page of an incident. */
+export function incidentUrl(publicUrl: string, id: string): string {
+  return `${publicUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(id)}`;
+}

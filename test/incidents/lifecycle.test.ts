@@ -1,0 +1,183 @@
+/**
+ * The incident lifecycle against a real PostgreSQL, on hand-made drafts:
+ * one incident per fingerprint episode, one message when it opens and one
+ * when it resolves, a severity rise announced once per cooldown, resolution
+ * after N clean judged days (not_ready days are not clean), muted incidents
+ * recorded but never announced, and reruns of a (flow, day) that change nothing.
+ */
+import { afterEach, beforeEach, describe, expect, it, onTestFailed } from 'vitest';
+import type { IncidentDraft } from '../../checks/causes/types.js';
+import { daysBetween } from '../../service/config/definitions.js';
+import { migrate } from '../../service/db/migrate.js';
+import { quoteIdent } from '../../service/db/sql.js';
+import { listIncidents, loadIncident } from '../../service/incidents/store.js';
+import { createTestSchema, type TestSchema } from '../helpers/db.js';
+import { FLOW, MENTION, clockFor, draft, judge, outboxRows } from './fixtures.js';
+
+let db: TestSchema;
+/** What each test fed in, printed when it fails. */
+let applied: Array<{ day: string; verdict: string; drafts: Array<Pick<IncidentDraft, 'fingerprint' | 'severity' | 'muted'>> }>;
+
+beforeEach(async () => {
+  db = await createTestSchema('inc');
+  await migrate(db.pool, db.schema);
+  applied = [];
+  onTestFailed(() => console.log('applied (flow, day) judgements:', JSON.stringify(applied, null, 1)));
+});
+afterEach(async () => {
+  await db.drop();
+});
+
+async function day(d: string, drafts: IncidentDraft[], options: { verdict?: 'judged' | 'not_ready'; now?: Date } = {}) {
+  applied.push({ day: d, verdict: options.verdict ?? 'judged', drafts: drafts.map(({ fingerprint, severity, muted }) => ({ fingerprint, severity, muted })) });
+  return await judge(db.pool, db.schema, d, drafts, options);
+}
+
+async function incidents() {
+  return await listIncidents(db.pool, db.schema, { flows: [FLOW], from: '2000-01-01', to: '2100-01-01' });
+}
+
+describe('applyIncidentDrafts', () => {
+  it('opens an incident with one chat message carrying the owner mention and the page link', async () => {
+    const changes = await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    const [incident] = await incidents();
+    expect(changes.opened).toEqual([incident!.id]);
+    expect(incident).toMatchObject({ status: 'open', severity: 'warn', openedDay: '2026-11-18', lastSeenDay: '2026-11-18', daysSeen: 1, notifiedSeverity: 'warn' });
+    expect(incident!.id).toMatch(/^monthly_pass-20261118-[0-9a-f]{8}$/);
+    const messages = await outboxRows(db.pool, db.schema);
+    expect(messages.map((m) => [m.incident_id, m.event, m.day, m.state])).toEqual([[incident!.id, 'opened', '2026-11-18', 'pending']]);
+    const text = JSON.stringify(messages[0]!.payload);
+    expect(text).toContain(MENTION);
+    expect(text).toContain(`http://plumbline.metropass.example/incidents/${incident!.id}`);
+  });
+
+  it('keeps a five-day incident as one incident with one message', async () => {
+    for (const d of daysBetween('2026-11-18', '2026-11-22')) await day(d, [draft({ day: d, since: '2026-11-18' })]);
+    const list = await incidents();
+    expect(list).toHaveLength(1);
+    expect(list[0]).toMatchObject({ status: 'ongoing', daysSeen: 5, since: '2026-11-18', lastSeenDay: '2026-11-22' });
+    expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened']);
+    const detail = await loadIncident(db.pool, db.schema, list[0]!.id);
+    expect(detail!.sightings.map((s) => s.day)).toEqual(daysBetween('2026-11-18', '2026-11-22'));
+  });
+
+  it('announces a severity rise once, and not before the cooldown has passed', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18', severity: 'warn' })], { now: clockFor('2026-11-18') });
+    // Judged 2 hours after the opening message: within the 24 h cooldown, so the rise waits.
+    await day('2026-11-19', [draft({ day: '2026-11-19', since: '2026-11-18', severity: 'page' })], { now: clockFor('2026-11-18', 2) });
+    expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened']);
+    // The next day the cooldown is over and the rise still holds: announced once.
+    await day('2026-11-20', [draft({ day: '2026-11-20', since: '2026-11-18', severity: 'page' })]);
+    await day('2026-11-21', [draft({ day: '2026-11-21', since: '2026-11-18', severity: 'page' })]);
+    await day('2026-11-22', [draft({ day: '2026-11-22', since: '2026-11-18', severity: 'warn' })]);
+    const messages = await outboxRows(db.pool, db.schema);
+    expect(messages.map((m) => [m.event, m.day])).toEqual([
+      ['opened', '2026-11-18'],
+      ['severity_raised', '2026-11-20'],
+    ]);
+    expect(messages[1]!.payload.text).toContain('Severity raised');
+    const [incident] = await incidents();
+    expect(incident).toMatchObject({ severity: 'page', notifiedSeverity: 'page' });
+  });
+
+  it('resolves after resolve_after_days clean judged days, with one resolution message', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    await day('2026-11-19', [draft({ day: '2026-11-19', since: '2026-11-18' })]);
+    const first = await day('2026-11-20', []);
+    expect(first.resolved).toEqual([]);
+    expect((await incidents())[0]!.status).toBe('ongoing');
+    const second = await day('2026-11-21', []);
+    const [incident] = await incidents();
+    expect(second.resolved).toEqual([incident!.id]);
+    expect(incident).toMatchObject({ status: 'resolved', resolvedDay: '2026-11-21', resolution: 'clean_days' });
+    expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([
+      ['opened', '2026-11-18'],
+      ['resolved', '2026-11-21'],
+    ]);
+    await day('2026-11-22', []);
+    expect(await outboxRows(db.pool, db.schema)).toHaveLength(2);
+  });
+
+  it('does not count not_ready days as clean', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    await day('2026-11-19', [], { verdict: 'not_ready' });
+    await day('2026-11-20', [], { verdict: 'not_ready' });
+    expect((await incidents())[0]!.status).toBe('open');
+    await day('2026-11-21', []);
+    expect((await incidents())[0]!.status).toBe('open');
+    await day('2026-11-22', []);
+    expect((await incidents())[0]).toMatchObject({ status: 'resolved', resolvedDay: '2026-11-22' });
+  });
+
+  it('records muted incidents without ever announcing them', async () => {
+    for (const d of daysBetween('2026-11-18', '2026-11-20')) await day(d, [draft({ day: d, since: '2026-11-18', muted: true, severity: d === '2026-11-20' ? 'page' : 'note' })]);
+    await day('2026-11-21', []);
+    await day('2026-11-22', []);
+    const [incident] = await incidents();
+    expect(incident).toMatchObject({ muted: true, status: 'resolved', daysSeen: 3, notifiedSeverity: null });
+    expect(await outboxRows(db.pool, db.schema)).toEqual([]);
+  });
+
+  it('announces an incident once its mute no longer covers it', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18', muted: true })]);
+    await day('2026-11-19', [draft({ day: '2026-11-19', since: '2026-11-18' })]);
+    expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([['opened', '2026-11-19']]);
+  });
+
+  it('opens a new incident when a resolved fingerprint comes back', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    await day('2026-11-19', []);
+    await day('2026-11-20', []);
+    await day('2026-11-23', [draft({ day: '2026-11-23' })]);
+    const list = await incidents();
+    expect(list.map((i) => [i.openedDay, i.status])).toEqual([
+      ['2026-11-23', 'open'],
+      ['2026-11-18', 'resolved'],
+    ]);
+    expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened', 'resolved', 'opened']);
+  });
+
+  it('tracks two fingerprints of one day as two incidents', async () => {
+    const changes = await day('2026-11-18', [draft({ day: '2026-11-18' }), draft({ day: '2026-11-18', platform: 'ios', version: '5.2.0' })]);
+    expect(changes.opened).toHaveLength(2);
+    expect(new Set((await outboxRows(db.pool, db.schema)).map((m) => m.incident_id)).size).toBe(2);
+  });
+
+  it('leaves the same incidents and messages when (flow, day)s are judged again', async () => {
+    const days = daysBetween('2026-11-18', '2026-11-24');
+    const draftsFor = (d: string): IncidentDraft[] => {
+      const out: IncidentDraft[] = [];
+      if (d <= '2026-11-20') out.push(draft({ day: d, since: '2026-11-18', severity: d >= '2026-11-20' ? 'page' : 'warn' }));
+      if (d >= '2026-11-19' && d <= '2026-11-22') out.push(draft({ day: d, since: '2026-11-19', platform: 'ios', version: '5.2.0', muted: d === '2026-11-19' }));
+      return out;
+    };
+    const snapshot = async () => {
+      const s = quoteIdent(db.schema);
+      const incidentsNow = (await db.pool.query(`select * from ${s}.incidents order by id`)).rows.map(({ updated_at: _u, ...rest }) => rest);
+      const sightings = (await db.pool.query(`select * from ${s}.incident_days order by incident_id, day`)).rows;
+      const outbox = (await db.pool.query(`select incident_id, event, day, idempotency_key, payload from ${s}.outbox order by id`)).rows;
+      return { incidentsNow, sightings, outbox };
+    };
+    for (const d of days) await day(d, draftsFor(d));
+    const first = await snapshot();
+    expect(first.outbox.map((m) => m.event)).toEqual(['opened', 'severity_raised', 'opened', 'resolved', 'resolved']);
+    // The same day twice in a row, then the whole range again in order, then one day in the middle.
+    await day('2026-11-24', draftsFor('2026-11-24'));
+    for (const d of days) await day(d, draftsFor(d));
+    await day('2026-11-20', draftsFor('2026-11-20'));
+    expect(await snapshot()).toEqual(first);
+  });
+
+  it('withdraws an incident when judging its only day again no longer shows it', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    const [before] = await incidents();
+    await day('2026-11-18', []);
+    const [after] = await incidents();
+    expect(after).toMatchObject({ id: before!.id, status: 'resolved', resolution: 'withdrawn', daysSeen: 0, resolvedDay: '2026-11-18' });
+    expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened', 'resolved']);
+  });
+
+  it('rejects drafts of another flow or day', async () => {
+    await expect(day('2026-11-18', [draft({ day: '2026-11-17' })])).rejects.toThrow(/not monthly_pass on 2026-11-18/);
+  });
+});
