@@ -45,6 +45,11 @@ export interface ParamDayRow {
   distinctValues: number | null;
   /** Most frequent values (up to 12) of low-cardinality keys; empty otherwise. */
   topValues: Array<{ value: string; events: number }>;
+  /** Smallest and largest value, for jsonType 'number'; null otherwise. */
+  minNumber: number | null;
+  maxNumber: number | null;
+  /** Numbers with a fractional part (an integer contract's violations). */
+  fractional: number;
   /** Events of this event/platform/version that day, to turn counts into rates. */
   eventTotal: number;
 }
@@ -68,6 +73,19 @@ export interface FunnelDayRow {
   secondsP90: number | null;
   /** How many step-to-step times entered the two statistics above. */
   timed: number;
+}
+
+/** Events and people matching a step's definition on a day, in any order (not a funnel). */
+export interface StepDayRow {
+  day: Day;
+  flow: string;
+  /** 0-based step index. */
+  step: number;
+  platform: string;
+  /** Raw app version, `NO_VERSION`, or `ALL_VERSIONS` for the platform total. */
+  version: string;
+  events: number;
+  people: number;
 }
 
 /** What the freshness probe saw of a day, per platform. */
@@ -132,6 +150,7 @@ export interface CheckInput {
   events: EventDayRow[];
   params: ParamDayRow[];
   funnel: FunnelDayRow[];
+  steps: StepDayRow[];
   status: DayStatusRow[];
   /** Declared expected highs and lows, expanded to single days (flow and global entries). */
   calendar: CalendarDay[];

@@ -1,9 +1,9 @@
 import type pg from 'pg';
-import type { CalendarDay, CheckInput, DayStatusRow, EventDayRow, FlowDefinition, FunnelDayRow, ParamDayRow } from '../../checks/types.js';
+import type { CalendarDay, CheckInput, DayStatusRow, EventDayRow, FlowDefinition, FunnelDayRow, ParamDayRow, StepDayRow } from '../../checks/types.js';
 import { addDays, expandCalendar } from '../config/definitions.js';
 import type { CalendarEntry } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
-import { selectDayStatus, selectEventDays, selectFunnelDays, selectParamDays } from '../state/rollups.js';
+import { selectDayStatus, selectEventDays, selectFunnelDays, selectParamDays, selectStepDays } from '../state/rollups.js';
 
 /** Rollup rows of one flow over a range of days, loaded once and sliced per judged day. */
 export interface FlowHistory {
@@ -13,6 +13,7 @@ export interface FlowHistory {
   events: EventDayRow[];
   params: ParamDayRow[];
   funnel: FunnelDayRow[];
+  steps: StepDayRow[];
   status: DayStatusRow[];
   calendar: CalendarDay[];
 }
@@ -25,10 +26,11 @@ export async function loadHistory(
   from: string,
   to: string,
 ): Promise<FlowHistory> {
-  const [events, params, funnel, status] = await Promise.all([
+  const [events, params, funnel, steps, status] = await Promise.all([
     state.query<EventDayRow>(selectEventDays(schema, from, to, flow.events)),
     state.query<ParamDayRow>(selectParamDays(schema, from, to, flow.events)),
     state.query<FunnelDayRow>(selectFunnelDays(schema, from, to, flow.id)),
+    state.query<StepDayRow>(selectStepDays(schema, from, to, flow.id)),
     state.query<Omit<DayStatusRow, 'newestAt' | 'rolledUpAt'> & { newestAt: Date | null; rolledUpAt: Date }>(selectDayStatus(schema, from, to)),
   ]);
   return {
@@ -38,6 +40,7 @@ export async function loadHistory(
     events: events.rows,
     params: params.rows,
     funnel: funnel.rows,
+    steps: steps.rows,
     status: status.rows.map((row) => ({ ...row, newestAt: row.newestAt?.toISOString() ?? null, rolledUpAt: row.rolledUpAt.toISOString() })),
     calendar: expandCalendar(calendar, from, to),
   };
@@ -63,6 +66,7 @@ export function sliceInput(
     events: within(history.events),
     params: within(history.params),
     funnel: within(history.funnel),
+    steps: within(history.steps),
     status: within(history.status),
     calendar: within(history.calendar),
     anomalous,

@@ -1,13 +1,14 @@
 import type pg from 'pg';
-import type { FlowDefinition, FunnelDayRow } from '../../checks/types.js';
+import type { FlowDefinition, FunnelDayRow, StepDayRow } from '../../checks/types.js';
 import type { Query } from '../db/sql.js';
 import {
   deleteDay,
-  deleteFunnelDay,
+  deleteFlowDay,
   deleteStatusExcept,
   insertEventDays,
   insertFunnelDays,
   insertParamDays,
+  insertStepDays,
   untrackedKeysQuery,
   upsertDayStatus,
   type ParamRowToWrite,
@@ -19,6 +20,7 @@ import {
   eventCountsQuery,
   funnelQuery,
   paramProfileQuery,
+  stepCountsQuery,
   type WarehouseMapping,
 } from '../warehouse/queries.js';
 
@@ -60,11 +62,12 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   );
   const watched = [...new Set(ctx.flows.flatMap((flow) => flow.events))];
 
-  const [counts, status, params, ...funnels] = await Promise.all([
+  const [counts, status, params, funnels, stepCounts] = await Promise.all([
     readWarehouse<CountRow>(ctx, eventCountsQuery(ctx.mapping, lo, hi)),
     readWarehouse<StatusRow>(ctx, dayStatusQuery(ctx.mapping, lo, hi)),
     readWarehouse<ParamRow>(ctx, paramProfileQuery(ctx.mapping, lo, hi, watched, untracked.map((row) => row.key))),
-    ...ctx.flows.map((flow) => readWarehouse<FunnelRow>(ctx, funnelQuery(ctx.mapping, flow, lo, hi))),
+    Promise.all(ctx.flows.map((flow) => readWarehouse<FunnelRow>(ctx, funnelQuery(ctx.mapping, flow, lo, hi)))),
+    Promise.all(ctx.flows.map((flow) => readWarehouse<StepCountRow>(ctx, stepCountsQuery(ctx.mapping, flow, lo, hi)))),
   ]);
 
   const hours = Math.round((hi.getTime() - lo.getTime()) / 3_600_000);
@@ -78,8 +81,14 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
     events: Number(row.events),
     distinctValues: row.distinct_values,
     topValues: row.top_values.map((top) => ({ value: top.value, events: Number(top.events) })),
+    minNumber: row.min_number,
+    maxNumber: row.max_number,
+    fractional: Number(row.fractional),
   }));
   const funnelRows = ctx.flows.flatMap((flow, index) => unpivotFunnel(flow.id, funnels[index]!));
+  const stepRows: Omit<StepDayRow, 'day'>[] = ctx.flows.flatMap((flow, index) =>
+    stepCounts[index]!.map((row) => ({ flow: flow.id, step: row.step, platform: row.platform, version: row.version, events: Number(row.events), people: Number(row.people) })),
+  );
 
   const client = await ctx.state.connect();
   try {
@@ -94,8 +103,12 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
     );
     await client.query(deleteDay(ctx.stateSchema, 'param_days', day));
     await client.query(insertParamDays(ctx.stateSchema, day, paramRows));
-    for (const flow of ctx.flows) await client.query(deleteFunnelDay(ctx.stateSchema, day, flow.id));
+    for (const flow of ctx.flows) {
+      await client.query(deleteFlowDay(ctx.stateSchema, 'funnel_days', day, flow.id));
+      await client.query(deleteFlowDay(ctx.stateSchema, 'step_days', day, flow.id));
+    }
     await client.query(insertFunnelDays(ctx.stateSchema, day, funnelRows));
+    await client.query(insertStepDays(ctx.stateSchema, day, stepRows));
     await client.query(upsertDayStatus(ctx.stateSchema, day, statusRows));
     await client.query(deleteStatusExcept(ctx.stateSchema, day, statusRows.map((row) => row.platform)));
     await client.query('commit');
@@ -157,6 +170,16 @@ interface ParamRow {
   events: string;
   distinct_values: number | null;
   top_values: Array<{ value: string; events: number }>;
+  min_number: number | null;
+  max_number: number | null;
+  fractional: string;
+}
+interface StepCountRow {
+  platform: string;
+  version: string;
+  step: number;
+  events: string;
+  people: string;
 }
 interface FunnelRow {
   platform: string;

@@ -3,15 +3,39 @@
  * replace a whole day (delete then insert, in the caller's transaction), so a
  * rerun of a day leaves exactly what a first run would.
  */
-import type { DayStatusRow, EventDayRow, FunnelDayRow, ParamDayRow } from '../../checks/types.js';
+import type { DayStatusRow, EventDayRow, FunnelDayRow, ParamDayRow, StepDayRow } from '../../checks/types.js';
 import { quoteIdent, type Query } from '../db/sql.js';
 
 export function deleteDay(schema: string, table: 'event_days' | 'param_days' | 'day_status', day: string): Query {
   return { text: `delete from ${quoteIdent(schema)}.${quoteIdent(table)} where day = $1`, values: [day] };
 }
 
-export function deleteFunnelDay(schema: string, day: string, flow: string): Query {
-  return { text: `delete from ${quoteIdent(schema)}.funnel_days where day = $1 and flow = $2`, values: [day, flow] };
+export function deleteFlowDay(schema: string, table: 'funnel_days' | 'step_days', day: string, flow: string): Query {
+  return { text: `delete from ${quoteIdent(schema)}.${quoteIdent(table)} where day = $1 and flow = $2`, values: [day, flow] };
+}
+
+export function insertStepDays(schema: string, day: string, rows: Omit<StepDayRow, 'day'>[]): Query {
+  return {
+    text: `insert into ${quoteIdent(schema)}.step_days (day, flow, step, platform, version, events, people)
+      select $1::date, * from unnest($2::text[], $3::smallint[], $4::text[], $5::text[], $6::bigint[], $7::bigint[])`,
+    values: [
+      day,
+      rows.map((r) => r.flow),
+      rows.map((r) => r.step),
+      rows.map((r) => r.platform),
+      rows.map((r) => r.version),
+      rows.map((r) => r.events),
+      rows.map((r) => r.people),
+    ],
+  };
+}
+
+export function selectStepDays(schema: string, from: string, to: string, flow: string): Query {
+  return {
+    text: `select ${isoDay('day')} as day, flow, step, platform, version, events::float8 as events, people::float8 as people
+      from ${quoteIdent(schema)}.step_days where day between $1 and $2 and flow = $3 order by day, step`,
+    values: [from, to, flow],
+  };
 }
 
 export function insertEventDays(schema: string, day: string, rows: Omit<EventDayRow, 'day'>[]): Query {
@@ -35,10 +59,12 @@ export type ParamRowToWrite = Omit<ParamDayRow, 'day' | 'eventTotal'>;
 
 export function insertParamDays(schema: string, day: string, rows: ParamRowToWrite[]): Query {
   return {
-    text: `insert into ${quoteIdent(schema)}.param_days (day, event, platform, version, key, json_type, events, distinct_values, top_values)
-      select $1::date, event, platform, version, key, json_type, events, distinct_values, top_values::jsonb
-      from unnest($2::text[], $3::text[], $4::text[], $5::text[], $6::text[], $7::bigint[], $8::integer[], $9::text[])
-        as t(event, platform, version, key, json_type, events, distinct_values, top_values)`,
+    text: `insert into ${quoteIdent(schema)}.param_days
+        (day, event, platform, version, key, json_type, events, distinct_values, top_values, min_number, max_number, fractional)
+      select $1::date, event, platform, version, key, json_type, events, distinct_values, top_values::jsonb, min_number, max_number, fractional
+      from unnest($2::text[], $3::text[], $4::text[], $5::text[], $6::text[], $7::bigint[], $8::integer[], $9::text[],
+        $10::double precision[], $11::double precision[], $12::bigint[])
+        as t(event, platform, version, key, json_type, events, distinct_values, top_values, min_number, max_number, fractional)`,
     values: [
       day,
       rows.map((r) => r.event),
@@ -49,6 +75,9 @@ export function insertParamDays(schema: string, day: string, rows: ParamRowToWri
       rows.map((r) => r.events),
       rows.map((r) => r.distinctValues),
       rows.map((r) => JSON.stringify(r.topValues)),
+      rows.map((r) => r.minNumber),
+      rows.map((r) => r.maxNumber),
+      rows.map((r) => r.fractional),
     ],
   };
 }
@@ -121,7 +150,8 @@ export function selectParamDays(schema: string, from: string, to: string, events
   const s = quoteIdent(schema);
   return {
     text: `select ${isoDay('p.day')} as day, p.event, p.platform, p.version, p.key, p.json_type as "jsonType", p.events::float8 as events,
-        p.distinct_values as "distinctValues", p.top_values as "topValues", coalesce(e.events, 0)::float8 as "eventTotal"
+        p.distinct_values as "distinctValues", p.top_values as "topValues", p.min_number as "minNumber", p.max_number as "maxNumber",
+        p.fractional::float8 as fractional, coalesce(e.events, 0)::float8 as "eventTotal"
       from ${s}.param_days p
       left join ${s}.event_days e on e.day = p.day and e.event = p.event and e.platform = p.platform and e.version = p.version
         and e.dimension = '' and e.value = ''

@@ -156,7 +156,8 @@ export function paramProfileQuery(mapping: WarehouseMapping, lo: Date, hi: Date,
 with kv as (
   select r.event, r.platform, r.version, kv.key, jsonb_typeof(kv.value) as json_type,
          (r.event || '.' || kv.key) <> all(${p.add(untrackedKeys)}::text[]) as tracked,
-         kv.value
+         kv.value,
+         case when jsonb_typeof(kv.value) = 'number' then (kv.value)::float8 end as number
   from (
     select ${c.name}::text as event, ${c.platform} as platform, ${c.version} as version, ${c.props} as props
     from ${c.table}
@@ -168,18 +169,20 @@ with kv as (
 grouped as (
   select event, platform, version, key, json_type, tracked,
          case when tracked and json_type in ('string', 'number', 'boolean') then left(value #>> '{}', ${VALUE_MAX_LENGTH}) end as value,
-         count(*) as n
+         count(*) as n, min(number) as min_number, max(number) as max_number,
+         count(*) filter (where number <> trunc(number)) as fractional
   from kv group by 1, 2, 3, 4, 5, 6, 7
 ),
 totals as (
-  select event, platform, version, key, json_type, bool_and(tracked) as tracked, sum(n) as events, count(value) as distinct_values
+  select event, platform, version, key, json_type, bool_and(tracked) as tracked, sum(n) as events, count(value) as distinct_values,
+         min(min_number) as min_number, max(max_number) as max_number, sum(fractional) as fractional
   from grouped group by 1, 2, 3, 4, 5
 ),
 tops as (
   select event, platform, version, key, json_type,
-         jsonb_agg(jsonb_build_object('value', value, 'events', n) order by n desc, value) as top_values
+         jsonb_agg(jsonb_build_object('value', value, 'events', n) order by rank) as top_values
   from (
-    select *, row_number() over (partition by event, platform, version, key, json_type order by n desc, value) as rank
+    select *, row_number() over (partition by event, platform, version, key, json_type order by n desc, value collate "C") as rank
     from grouped where value is not null
   ) r
   where rank <= ${TOP_VALUES}
@@ -187,9 +190,37 @@ tops as (
 )
 select t.event, t.platform, t.version, t.key, t.json_type, t.events,
        case when t.tracked then t.distinct_values end as distinct_values,
+       t.min_number, t.max_number, t.fractional,
        case when t.tracked and t.distinct_values <= ${LOW_CARDINALITY} then coalesce(tops.top_values, '[]'::jsonb) else '[]'::jsonb end as top_values
 from totals t
 left join tops using (event, platform, version, key, json_type)`;
+  return { text, values: p.values };
+}
+
+/**
+ * Events and distinct people matching each step's definition on the day, per
+ * platform x version and per platform, whatever the order they came in: the
+ * raw signal behind "android stopped sending rider_details views", which the
+ * ordered funnel cannot separate from people leaving earlier.
+ */
+export function stepCountsQuery(mapping: WarehouseMapping, flow: FlowDefinition, lo: Date, hi: Date): Query {
+  const p = new Params();
+  const c = new Columns(mapping, p);
+  const stepArms = flow.steps.map((step, i) => `case when ${stepCondition(c, p, step)} then ${i} end`).join(', ');
+  const eventNames = [...new Set(flow.steps.map((step) => step.event))];
+  const text = `
+with step_events as (
+  select ${c.person} as person, ${c.platform} as platform, ${c.version} as version, s.step
+  from ${c.table}
+  cross join lateral unnest(array[${stepArms}]) as s(step)
+  where ${c.time} >= ${p.add(lo)} and ${c.time} < ${p.add(hi)}
+    and ${c.name}::text = any(${p.add(eventNames)}::text[])
+    and s.step is not null
+)
+select platform, case when grouping(version) = 0 then version else '*' end as version, step,
+       count(*) as events, count(distinct person) as people
+from step_events
+group by grouping sets ((platform, version, step), (platform, step))`;
   return { text, values: p.values };
 }
 

@@ -187,3 +187,33 @@ export function referenceCounts(events: RawEvent[], platforms: Record<string, st
   }
   return [...rows.values()].map(({ persons, ...row }) => ({ ...row, people: persons.size }));
 }
+
+export interface ReferenceStepRow {
+  platform: string;
+  version: string;
+  step: number;
+  events: number;
+  people: number;
+}
+
+/** Events and distinct people matching each step on the day, in any order, per platform x version and per platform. */
+export function referenceStepCounts(events: RawEvent[], flow: FlowDefinition, platforms: Record<string, string[]>, lo: Date, hi: Date): ReferenceStepRow[] {
+  const rows = new Map<string, ReferenceStepRow & { persons: Set<string> }>();
+  for (const event of events) {
+    const at = event.at.getTime();
+    if (at < lo.getTime() || at >= hi.getTime()) continue;
+    const platform = platformOf(event.platform, platforms);
+    const person = personOf(event);
+    flow.steps.forEach((step, index) => {
+      if (!matchesStep(event, step)) return;
+      for (const version of [event.version ?? '', '*']) {
+        const key = [platform, version, index].join('\u0000');
+        const row = rows.get(key) ?? { platform, version, step: index, events: 0, people: 0, persons: new Set<string>() };
+        row.events += 1;
+        if (person !== null) row.persons.add(person);
+        rows.set(key, row);
+      }
+    });
+  }
+  return [...rows.values()].map(({ persons, ...row }) => ({ ...row, people: persons.size }));
+}

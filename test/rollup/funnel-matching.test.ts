@@ -8,9 +8,9 @@ import fc from 'fast-check';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
 import { quoteIdent } from '../../service/db/sql.js';
-import { dayBounds, eventCountsQuery, funnelQuery } from '../../service/warehouse/queries.js';
+import { dayBounds, eventCountsQuery, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { byteOrder, referenceCounts, referenceFunnel } from '../helpers/reference.js';
+import { byteOrder, referenceCounts, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
 import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
 
 const DAY = '2026-03-10';
@@ -168,6 +168,25 @@ describe('funnel matching (SQL vs brute-force reference)', () => {
         expect(actual).toEqual(expected);
       }),
       { numRuns: 60, seed: 20261202 },
+    );
+  });
+
+  it('step counts (any order) agree with the reference', async () => {
+    const definition = flow('first_step_only');
+    await fc.assert(
+      fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
+        const rows = toRows(journeys, lo);
+        await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
+        await insertEvents(db.pool, db.schema, rows);
+        const { rows: sql } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
+        const actual = sql.map((row) => ({ platform: row.platform as string, version: row.version as string, step: Number(row.step), events: Number(row.events), people: Number(row.people) }));
+        const expected = referenceStepCounts(rows, definition, mapping().platforms, lo, hi);
+        const key = (row: { platform: string; version: string; step: number }) => [row.platform, row.version, row.step].join('|');
+        actual.sort((a, b) => byteOrder(key(a), key(b)));
+        expected.sort((a, b) => byteOrder(key(a), key(b)));
+        expect(actual).toEqual(expected);
+      }),
+      { numRuns: 40, seed: 20261203 },
     );
   });
 });

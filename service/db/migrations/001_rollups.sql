@@ -41,6 +41,9 @@ create table param_days (
   -- null: the key has too many distinct values to profile
   distinct_values integer,
   top_values jsonb not null,
+  min_number double precision,
+  max_number double precision,
+  fractional bigint not null default 0,
   primary key (day, event, platform, version, key, json_type)
 );
 
@@ -59,6 +62,18 @@ create table funnel_days (
   seconds_p90 double precision,
   timed bigint not null,
   primary key (day, flow, platform, version, dimension, value, step)
+);
+
+-- Events and people matching each step's definition, in any order.
+create table step_days (
+  day date not null,
+  flow text not null,
+  step smallint not null,
+  platform text not null,
+  version text not null,
+  events bigint not null,
+  people bigint not null,
+  primary key (day, flow, step, platform, version)
 );
 
 -- What the freshness probe saw of each day, per platform.
