@@ -56,6 +56,12 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     pool.on('error', (error) => {
       if (!closing) log.error({ err: error }, 'idle database connection failed');
     });
+    // A connection lost while checked out emits on the client; unheard, that would end the process.
+    pool.on('connect', (client) =>
+      client.on('error', (error) => {
+        if (!closing) log.warn({ err: error }, 'database connection lost');
+      }),
+    );
   }
   const stateSchema = config.main.state.schema;
   const applied = await migrate(state, stateSchema);

@@ -8,7 +8,11 @@ import { EXIT } from './exit-codes.js';
  * Loads the config in `dir` (exit 2 on errors, every problem printed), opens
  * the connections (exit 3 when that fails), runs the work and closes up.
  */
-export async function withRuntime(dir: string, work: (rt: Runtime) => Promise<number>, options: RuntimeOptions = {}): Promise<number> {
+export async function withRuntime(
+  dir: string,
+  work: (rt: Runtime) => Promise<number>,
+  options: RuntimeOptions & { ownSignals?: boolean } = {},
+): Promise<number> {
   let config;
   try {
     config = loadConfig(dir);
@@ -28,8 +32,9 @@ export async function withRuntime(dir: string, work: (rt: Runtime) => Promise<nu
     console.error(`plumbline: cannot open the databases: ${(error as Error).message}`);
     return EXIT.database;
   }
+  // Long-running commands (serve) handle their own signals for a graceful shutdown.
   const stop = () => void rt.close().finally(() => process.exit(130));
-  process.once('SIGINT', stop);
+  if (!options.ownSignals) process.once('SIGINT', stop);
   try {
     return await work(rt);
   } finally {
