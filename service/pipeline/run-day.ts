@@ -1,8 +1,11 @@
+import { analyseCauses } from '../../checks/causes/index.js';
+import type { IncidentDraft } from '../../checks/causes/types.js';
 import { dayEnd } from '../../checks/time.js';
 import { addDays } from '../config/definitions.js';
 import { quoteIdent } from '../db/sql.js';
 import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
 import type { Runtime } from '../runtime.js';
+import { applyIncidentDrafts, incidentPolicy } from '../incidents/apply.js';
 import { storeJudgement } from '../state/findings.js';
 import { dayBounds, restatementProbeQuery } from '../warehouse/queries.js';
 import { loadAnomalousDays, loadHistory, sliceInput } from './history.js';
@@ -11,6 +14,7 @@ import { judgeDay, type Judgement } from './judge.js';
 export interface FlowJudgement extends Judgement {
   flow: string;
   day: string;
+  incidents: IncidentDraft[];
 }
 
 export interface RunOptions {
@@ -93,6 +97,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
   const historyDays = rt.config.main.judging.history_days;
   const from = addDays(days[0]!, -(historyDays - 1));
   const results: FlowJudgement[] = [];
+  const policy = incidentPolicy(rt.config.main);
   for (const { config } of rt.config.flows) {
     const flow = rt.flows.find((f) => f.id === config.flow)!;
     const calendar = [...rt.config.main.calendar, ...config.calendar];
@@ -103,10 +108,13 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
         const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
+        const incidents = analyseCauses(input, result.findings);
         const client = await rt.state.connect();
         try {
+          // Findings, incidents and their messages change together or not at all.
           await client.query('begin');
           await storeJudgement(client, rt.stateSchema, flow.id, day, result.verdict, result.reason, result.findings);
+          await applyIncidentDrafts(client, rt.stateSchema, flow.id, day, incidents, policy, clock(day));
           await client.query('commit');
         } catch (error) {
           await client.query('rollback');
@@ -114,7 +122,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
         } finally {
           client.release();
         }
-        return result;
+        return { ...result, incidents };
       });
       for (const finding of judgement.findings) (anomalous[finding.seriesKey] ??= []).push(day);
       results.push({ flow: flow.id, day, ...judgement });

@@ -1,0 +1,324 @@
+/**
+ * The likely cause of one finding, tested in order of evidence: data delay,
+ * release, platform, segment, calendar, behaviour. The first test that passes
+ * labels the finding; each returns its numbers.
+ */
+import { formatCount, formatPercent } from '../messages.js';
+import { explain, type ValueChange } from '../stats/explanatory-power.js';
+import { rateComparison } from '../stats/rate-comparison.js';
+import { twoProportionZ } from '../stats/two-proportion-z.js';
+import { ALL_VERSIONS, type CheckInput, type Finding } from '../types.js';
+import type { Cause } from './types.js';
+import {
+  baselineDays,
+  baselineOf,
+  dimensionValues,
+  dimensionsIn,
+  firstSeen,
+  measureOf,
+  measureOn,
+  rate,
+  versionsOn,
+  type Measure,
+  type Ratio,
+  type Slice,
+} from './measures.js';
+
+/** Thresholds of the cause tests; our heuristics, documented in checks/causes/README.md. */
+export const CAUSE_THRESHOLDS = {
+  /** A version must differ from the rest of its platform at least this surely (p-value). */
+  releasePValue: 1e-6,
+  /** ... and the rest of the platform must carry at most this share of the platform's change. */
+  restShareOfChange: 0.35,
+  /** Fewest people in a version (its denominator) to be compared at all. */
+  minVersionPeople: 30,
+  /** Other platforms must have moved at most this share of the finding platform's relative change. */
+  otherPlatformsShare: 1 / 3,
+  /** A segment's values must explain at least this share of the change (Adtributor T_EP). */
+  segmentMinEp: 0.67,
+  /** ... while the other values moved at most this share of the segment's relative change. */
+  segmentRestShare: 1 / 3,
+  /** At most this many values in a segment explanation (a set of many is no explanation). */
+  segmentMaxValues: 2,
+  /** Share of watched events x platforms with volume findings for "everything moved together". */
+  movedTogetherShare: 0.75,
+};
+
+/** Measures a count may exceed its exposure in: compared as rates, not proportions. */
+function isRateMeasure(measure: Measure): boolean {
+  return measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'step_people';
+}
+
+function compare(measure: Measure, a: Ratio, b: Ratio): { z: number; pValue: number } {
+  if (isRateMeasure(measure)) return rateComparison(a.num, a.den, b.num, b.den);
+  return twoProportionZ(Math.round(a.num), Math.round(a.den), Math.round(b.num), Math.round(b.den));
+}
+
+const all = (platform: string | null): Slice => ({ platform, version: ALL_VERSIONS, dimension: '', value: '' });
+
+/** Relative change of the measure on the judged day against its baseline, in a slice. */
+function relativeChange(input: CheckInput, measure: Measure, slice: Slice, days: readonly string[]): number {
+  const today = rate(measureOn(input, measure, input.day, slice));
+  const usual = rate(baselineOf(input, measure, slice, days));
+  return usual > 0 && Number.isFinite(today) ? today / usual - 1 : Number.NaN;
+}
+
+export interface Attribution {
+  cause: Cause;
+  /** Keys that decide which findings share an incident. */
+  groupKey: string;
+}
+
+export function attribute(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution {
+  return (
+    dataDelay(finding, input, dayFindings) ??
+    release(finding, input) ??
+    platformOnly(finding, input) ??
+    segment(finding, input) ??
+    calendar(finding, input) ??
+    behaviour(finding, input)
+  );
+}
+
+function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
+  if (finding.check === 'freshness') {
+    return {
+      groupKey: `data_delay|${finding.platform ?? '*'}`,
+      cause: {
+        label: 'data_delay',
+        confidence: 0.9,
+        sentence: `the data is late or incomplete: ${finding.message}`,
+        platform: finding.platform,
+        version: null,
+        evidence: { check: 'freshness', kind: finding.kind, ...(finding.evidence ?? {}) },
+      },
+    };
+  }
+  // Every watched event on every platform moving one way on an undeclared day is the pipeline, not people.
+  if (finding.check !== 'volume' || input.calendar.some((entry) => entry.day === input.day)) return undefined;
+  const moved = new Set(
+    dayFindings
+      .filter((f) => f.check === 'volume' && f.subject.type === 'event' && f.direction === finding.direction)
+      .map((f) => `${f.subject.event ?? f.subject.name}|${f.platform}`),
+  );
+  const expected = input.flow.events.length * input.flow.platforms.length;
+  if (expected < 2 || moved.size < Math.ceil(CAUSE_THRESHOLDS.movedTogetherShare * expected)) return undefined;
+  return {
+    groupKey: 'data_delay|*',
+    cause: {
+      label: 'data_delay',
+      confidence: 0.7,
+      sentence: `${moved.size} of ${expected} watched event x platform series moved ${finding.direction} together on ${input.day}, a day with nothing declared: the pipeline, not the people`,
+      platform: null,
+      version: null,
+      evidence: { movedSeries: moved.size, watchedSeries: expected },
+    },
+  };
+}
+
+function release(finding: Finding, input: CheckInput): Attribution | undefined {
+  const platform = finding.platform;
+  if (platform === null) return undefined;
+  if (finding.check === 'schema' && finding.version !== null && finding.version !== ALL_VERSIONS) {
+    const seen = firstSeen(input, platform, finding.version);
+    const adoption = shareOfPlatform(input, platform, finding.version);
+    return {
+      groupKey: `release|${platform}|${finding.version}`,
+      cause: {
+        label: 'release',
+        confidence: 0.9,
+        sentence: `${platform} ${finding.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${finding.message}`,
+        platform,
+        version: finding.version,
+        evidence: { version: finding.version, firstSeen: seen ?? null, adoption, finding: finding.kind },
+      },
+    };
+  }
+  const measure = measureOf(finding, input);
+  if (!measure) return undefined;
+  const versions = versionsOn(input, platform, input.day);
+  if (versions.length < 2) return undefined;
+  const byVersion = new Map(versions.map((version) => [version, measureOn(input, measure, input.day, { platform, version, dimension: '', value: '' })]));
+  const days = baselineDays(input);
+  const usual = rate(baselineOf(input, measure, all(platform), days));
+  const today = rate(measureOn(input, measure, input.day, all(platform)));
+  if (!Number.isFinite(usual) || !Number.isFinite(today) || today === usual) return undefined;
+  let best: { version: string; own: Ratio; rest: Ratio; pValue: number } | undefined;
+  for (const version of versions) {
+    const own = byVersion.get(version)!;
+    if (own.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
+    const rest = versions
+      .filter((v) => v !== version)
+      .reduce((acc, v) => ({ num: acc.num + byVersion.get(v)!.num, den: acc.den + byVersion.get(v)!.den }), { num: 0, den: 0 });
+    if (rest.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
+    // The version must sit on the side the platform moved to.
+    if (Math.sign(rate(own) - rate(rest)) !== Math.sign(today - usual)) continue;
+    const { pValue } = compare(measure, own, rest);
+    if (!best || pValue < best.pValue) best = { version, own, rest, pValue };
+  }
+  if (!best || best.pValue > CAUSE_THRESHOLDS.releasePValue) return undefined;
+  // The other versions must look like the platform's usual self: the change lives in this version.
+  const restShare = (rate(best.rest) - usual) / (today - usual);
+  if (!(restShare <= CAUSE_THRESHOLDS.restShareOfChange)) return undefined;
+  const seen = firstSeen(input, platform, best.version);
+  const adoption = shareOfPlatform(input, platform, best.version);
+  const ownRate = rate(best.own);
+  const stopped = best.own.num === 0 && best.rest.num > 0;
+  const what = stopped ? `stopped sending what the ${measure.label} counts` : `${measure.label} ${formatRatio(measure, ownRate)}`;
+  const counts = isRateMeasure(measure)
+    ? `${formatCount(best.own.num)} over ${formatCount(best.own.den)}`
+    : `${formatCount(best.own.num)} of ${formatCount(best.own.den)} people`;
+  return {
+    groupKey: `release|${platform}|${best.version}`,
+    cause: {
+      label: 'release',
+      confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, restShare))),
+      sentence: `${platform} ${best.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${what}: ${counts} vs ${formatRatio(measure, rate(best.rest))} on other versions`,
+      platform,
+      version: best.version,
+      evidence: {
+        version: best.version,
+        firstSeen: seen ?? null,
+        adoption,
+        measure: measure.label,
+        versionNum: best.own.num,
+        versionDen: best.own.den,
+        versionRate: ownRate,
+        restRate: rate(best.rest),
+        platformUsual: usual,
+        pValue: best.pValue,
+      },
+    },
+  };
+}
+
+function formatRatio(measure: Measure, value: number): string {
+  if (!Number.isFinite(value)) return '-';
+  return isRateMeasure(measure) ? value.toFixed(2) : formatPercent(value);
+}
+
+/** A version's share of its platform's people entering the flow on the judged day. */
+function shareOfPlatform(input: CheckInput, platform: string, version: string): number {
+  const people = (v: string) =>
+    input.steps.filter((r) => r.day === input.day && r.step === 0 && r.platform === platform && r.version === v).reduce((sum, r) => sum + r.people, 0);
+  const total = people(ALL_VERSIONS);
+  return total > 0 ? people(version) / total : 0;
+}
+
+function platformOnly(finding: Finding, input: CheckInput): Attribution | undefined {
+  const platform = finding.platform;
+  if (platform === null) return undefined;
+  const measure = measureOf(finding, input);
+  if (!measure) return undefined;
+  const days = baselineDays(input);
+  const own = relativeChange(input, measure, all(platform), days);
+  const others = input.flow.platforms.filter((p) => p !== platform).map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) }));
+  const measured = others.filter((o) => Number.isFinite(o.change));
+  if (!Number.isFinite(own) || own === 0 || measured.length === 0) return undefined;
+  const largest = Math.max(...measured.map((o) => Math.abs(o.change)));
+  if (largest > CAUSE_THRESHOLDS.otherPlatformsShare * Math.abs(own)) return undefined;
+  return {
+    groupKey: `platform|${platform}`,
+    cause: {
+      label: 'platform',
+      confidence: Math.min(0.95, 1 - largest / Math.abs(own)),
+      sentence: `only ${platform} moved: ${measure.label} ${formatSigned(own)} against its usual level while ${measured
+        .map((o) => `${o.platform} ${formatSigned(o.change)}`)
+        .join(', ')}; no single app version explains it`,
+      platform,
+      version: null,
+      evidence: { measure: measure.label, change: own, ...Object.fromEntries(measured.map((o) => [`change_${o.platform}`, o.change])) },
+    },
+  };
+}
+
+function formatSigned(change: number): string {
+  return `${change >= 0 ? '+' : ''}${formatPercent(change)}`;
+}
+
+function segment(finding: Finding, input: CheckInput): Attribution | undefined {
+  const measure = measureOf(finding, input);
+  if (!measure || measure.kind === 'step_people') return undefined;
+  const days = baselineDays(input);
+  const candidates: Array<{ dimension: string; values: ValueChange[] }> = [];
+  for (const dimension of dimensionsIn(input)) {
+    const values: ValueChange[] = [];
+    for (const value of dimensionValues(input, measure, dimension, input.day)) {
+      const slice: Slice = { platform: finding.platform, version: ALL_VERSIONS, dimension, value };
+      const today = measureOn(input, measure, input.day, slice);
+      const usual = rate(baselineOf(input, measure, slice, days));
+      if (today.den === 0 || !Number.isFinite(usual)) continue;
+      // Forecast: today's exposure at the value's usual rate; actual: what happened.
+      values.push({ value, forecast: today.den * usual, actual: today.num });
+    }
+    if (values.length >= 2) candidates.push({ dimension, values });
+  }
+  const explanation = explain(candidates, { minValueEp: 0.1, minTotalEp: CAUSE_THRESHOLDS.segmentMinEp })[0];
+  if (!explanation || explanation.values.length > CAUSE_THRESHOLDS.segmentMaxValues) return undefined;
+  // A proportional move makes the largest value "explain" its share: require the chosen values to move apart from the rest.
+  const chosen = new Set(explanation.values.map((v) => v.value));
+  const dimensionValuesScored = candidates.find((c) => c.dimension === explanation.dimension)!.values;
+  const totals = (pick: (v: ValueChange) => boolean) =>
+    dimensionValuesScored.filter(pick).reduce((acc, v) => ({ forecast: acc.forecast + v.forecast, actual: acc.actual + v.actual }), { forecast: 0, actual: 0 });
+  const inside = totals((v) => chosen.has(v.value));
+  const outside = totals((v) => !chosen.has(v.value));
+  const insideChange = inside.forecast > 0 ? inside.actual / inside.forecast - 1 : 0;
+  const outsideChange = outside.forecast > 0 ? outside.actual / outside.forecast - 1 : 0;
+  if (insideChange === 0 || Math.abs(outsideChange) > CAUSE_THRESHOLDS.segmentRestShare * Math.abs(insideChange)) return undefined;
+  const values = explanation.values.map((v) => v.value).join(', ');
+  return {
+    groupKey: `segment|${explanation.dimension}=${values}`,
+    cause: {
+      label: 'segment',
+      confidence: Math.min(0.95, explanation.ep * (1 - Math.abs(outsideChange / insideChange))),
+      sentence: `${explanation.dimension} = ${values} explains ${formatPercent(Math.min(1, explanation.ep), 0)} of the change in ${measure.label}: ${formatCount(
+        inside.actual,
+      )} against ${formatCount(inside.forecast)} expected (${formatSigned(insideChange)}), the rest ${formatSigned(outsideChange)}`,
+      platform: finding.platform,
+      version: null,
+      segment: { dimension: explanation.dimension, value: values, explanatoryPower: explanation.ep, surprise: explanation.surprise },
+      evidence: { measure: measure.label, dimension: explanation.dimension, values, explanatoryPower: explanation.ep, surprise: explanation.surprise, segmentChange: insideChange, restChange: outsideChange },
+    },
+  };
+}
+
+function calendar(finding: Finding, input: CheckInput): Attribution | undefined {
+  const entry = input.calendar.find((c) => c.day === input.day);
+  if (!entry && !finding.calendar) return undefined;
+  const note = entry?.note ?? finding.calendar!;
+  const expected = entry?.expect;
+  const agrees = expected === undefined || (expected === 'low' ? finding.direction === 'down' : finding.direction === 'up');
+  return {
+    groupKey: `calendar|${note}`,
+    cause: {
+      label: 'calendar',
+      confidence: agrees ? 0.85 : 0.4,
+      sentence: `${input.day} is declared in the calendar: ${note}${expected ? ` (expected ${expected})` : ''}`,
+      platform: null,
+      version: null,
+      evidence: { note, expected: expected ?? null },
+    },
+  };
+}
+
+function behaviour(finding: Finding, input: CheckInput): Attribution {
+  const measure = measureOf(finding, input);
+  const days = baselineDays(input);
+  const changes = measure
+    ? input.flow.platforms.map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) })).filter((c) => Number.isFinite(c.change))
+    : [];
+  const together = changes.length > 1 && changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change));
+  return {
+    groupKey: `behaviour|${finding.subject.name}`,
+    cause: {
+      label: 'behaviour',
+      confidence: together ? 0.6 : 0.3,
+      sentence: measure
+        ? `no tracking cause found: ${measure.label} moved on ${together ? 'every platform' : 'some platforms'} (${changes.map((c) => `${c.platform} ${formatSigned(c.change)}`).join(', ')}), as a change in what people do would`
+        : `no tracking cause found for ${finding.subject.name}`,
+      platform: together ? null : finding.platform,
+      version: null,
+      evidence: { measure: measure?.label ?? null, ...Object.fromEntries(changes.map((c) => [`change_${c.platform}`, c.change])) },
+    },
+  };
+}
