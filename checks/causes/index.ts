@@ -55,7 +55,8 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     const severity = loud.length > 0 ? primary.severity : symptoms.reduce<Severity>((low, f) => (SEVERITY_RANK[f.severity] < SEVERITY_RANK[low] ? f.severity : low), 'page');
     const subject = subjectOf(symptoms, input);
     const platforms = [...new Set(symptoms.map((f) => f.platform))];
-    const platform = cause.platform ?? (platforms.length === 1 ? platforms[0]! : null);
+    // One platform when every symptom is on it; a cause seen across platforms (a segment, the calendar) has none.
+    const platform = platforms.length === 1 ? platforms[0]! : null;
     const version = cause.version;
     const since = symptoms.map((f) => f.since ?? f.day).sort()[0]!;
     const segmentKey = cause.segment ? `|${cause.segment.dimension}=${cause.segment.value}` : '';

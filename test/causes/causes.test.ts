@@ -1,0 +1,93 @@
+/**
+ * The cause analysis on synthetic rollups where the truth is known: each test
+ * breaks one slice (a version, a platform, a country, everything) on the
+ * judged day and checks the label, the numbers and the grouping.
+ */
+import { describe, expect, it } from 'vitest';
+import { analyseCauses } from '../../checks/causes/index.js';
+import { buildInput, DAY, finding } from './fixtures.js';
+
+const riderConversion = (platform: string) =>
+  finding({ check: 'conversion', metric: 'step_conversion', subject: { type: 'step', name: 'rider', step: 'rider' }, platform });
+
+function onlyDraft(drafts: ReturnType<typeof analyseCauses>) {
+  expect(drafts, JSON.stringify(drafts.map((d) => [d.cause.label, d.cause.sentence]), null, 1)).toHaveLength(1);
+  return drafts[0]!;
+}
+
+describe('analyseCauses', () => {
+  it('blames a release when one version stopped sending a step, with its numbers', () => {
+    const input = buildInput({ breakage: ({ platform, version }) => (platform === 'android' && version === '7.4.0' ? { rider: 0 } : {}) });
+    const volume = finding({ check: 'volume', metric: 'people', subject: { type: 'step', name: 'rider', step: 'rider' }, platform: 'android' });
+    const draft = onlyDraft(analyseCauses(input, [riderConversion('android'), volume]));
+    expect(draft.cause.label).toBe('release');
+    expect(draft.cause.version).toBe('7.4.0');
+    expect(draft.platform).toBe('android');
+    expect(draft.symptoms).toHaveLength(2);
+    // 2000 x 0.4 = 800 android 7.4.0 people at intro, none at rider, against 80% on 7.3.0.
+    expect(draft.cause.evidence).toMatchObject({ version: '7.4.0', versionNum: 0, versionDen: 800, restRate: 0.8, adoption: 0.4 });
+    expect(draft.cause.sentence).toMatch(/^android 7\.4\.0 \(first seen 2026-09-16, 40\.0% of android people\) stopped sending/);
+    expect(draft.cause.sentence).toContain('0 of 800 people vs 80.0% on other versions');
+    expect(draft.fingerprint).toBe('monthly_pass|release|rider|android|7.4.0');
+  });
+
+  it('does not blame a version when every version moved alike: one platform', () => {
+    const input = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { rider: 0.5 } : {}) });
+    const draft = onlyDraft(analyseCauses(input, [riderConversion('web')]));
+    expect(draft.cause.label).toBe('platform');
+    expect(draft.cause.sentence).toMatch(/^only web moved: intro -> rider conversion -50\.0%/);
+
+    const android = buildInput({ breakage: ({ platform }) => (platform === 'android' ? { rider: 0.5 } : {}) });
+    expect(onlyDraft(analyseCauses(android, [riderConversion('android')])).cause.label).toBe('platform');
+  });
+
+  it('finds the segment when one country moved on every platform, and groups the platforms into one incident', () => {
+    const input = buildInput({ breakage: ({ country }) => (country === 'CA' ? { done: 0.2 } : {}) });
+    const done = (platform: string) => finding({ check: 'conversion', metric: 'step_conversion', subject: { type: 'step', name: 'done', step: 'done' }, platform });
+    const draft = onlyDraft(analyseCauses(input, [done('web'), done('android'), done('ios')]));
+    expect(draft.cause.label).toBe('segment');
+    expect(draft.cause.segment).toMatchObject({ dimension: 'country', value: 'CA' });
+    expect(draft.cause.segment!.explanatoryPower).toBeCloseTo(1, 2);
+    expect(draft.symptoms).toHaveLength(3);
+    expect(draft.platform).toBeNull();
+  });
+
+  it('labels a declared day that moved everywhere alike as calendar', () => {
+    const input = buildInput({ breakage: () => ({ volume: 0.55 }), calendar: [{ day: DAY, note: 'Labor Day', expect: 'low' }] });
+    const volume = (platform: string) =>
+      finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_view', event: 'screen_view' }, platform, calendar: 'Labor Day', severity: 'note' });
+    const draft = onlyDraft(analyseCauses(input, [volume('web'), volume('android'), volume('ios')]));
+    expect(draft.cause.label).toBe('calendar');
+    expect(draft.cause.sentence).toContain('Labor Day');
+    expect(draft.severity).toBe('note');
+  });
+
+  it('calls an undeclared move of every event on every platform a data delay, and freshness findings too', () => {
+    const input = buildInput({ breakage: () => ({ volume: 0.5 }) });
+    const volume = (platform: string, event: string) =>
+      finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform });
+    const all = ['web', 'android', 'ios'].flatMap((p) => [volume(p, 'screen_view'), volume(p, 'pass_purchase_result')]);
+    expect(onlyDraft(analyseCauses(input, all)).cause.label).toBe('data_delay');
+
+    const partial = finding({ check: 'freshness', metric: 'hourly_events', subject: { type: 'day', name: DAY }, platform: null, kind: 'partial_day' });
+    expect(onlyDraft(analyseCauses(buildInput(), [partial])).cause.label).toBe('data_delay');
+  });
+
+  it('falls back to behaviour when the flow moved on every platform with nothing declared', () => {
+    const input = buildInput({ breakage: () => ({ done: 0.7 }) });
+    const done = (platform: string) => finding({ check: 'conversion', metric: 'step_conversion', subject: { type: 'step', name: 'done', step: 'done' }, platform });
+    const draft = onlyDraft(analyseCauses(input, [done('web'), done('android'), done('ios')]));
+    expect(draft.cause.label).toBe('behaviour');
+    expect(draft.platform).toBeNull();
+  });
+
+  it('keeps the fingerprint stable as symptoms come and go, and marks all-muted incidents', () => {
+    const input = buildInput({ breakage: ({ platform, version }) => (platform === 'android' && version === '7.4.0' ? { rider: 0 } : {}) });
+    const flowConversion = finding({ check: 'seasonal', metric: 'conversion', subject: { type: 'flow', name: 'monthly_pass' }, platform: 'android', muted: 'known' });
+    const [first] = analyseCauses(input, [riderConversion('android'), flowConversion]);
+    const [second] = analyseCauses(input, [{ ...riderConversion('android'), muted: 'known' }]);
+    expect(first!.fingerprint).toBe(second!.fingerprint);
+    expect(first!.muted).toBe(false);
+    expect(second!.muted).toBe(true);
+  });
+});
