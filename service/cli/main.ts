@@ -1,4 +1,5 @@
 import { Command, CommanderError, InvalidArgumentError } from 'commander';
+import { backtestCommand } from './commands/backtest.js';
 import { demoCommand } from './commands/demo.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
@@ -50,6 +51,18 @@ program
   .option('--json', 'machine-readable output')
   .action(async (options: { json?: boolean; days: number }) => {
     process.exitCode = await withRuntime(configDir(), (rt) => demoCommand(rt, options), { forceEmbedded: true });
+  });
+
+program
+  .command('backtest')
+  .description('replay the checks and cause analysis over stored rollups and print what they would have raised')
+  .requiredOption('--days <n>', 'days to replay, ending with the newest rolled-up day (or --to)', integer)
+  .option('--to <day>', 'last day replayed, YYYY-MM-DD')
+  .option('--flow <id...>', 'only these flows')
+  .option('--against <ref>', 'compare with the configuration at this git revision and print a Markdown report')
+  .option('--json', 'machine-readable output')
+  .action(async (options: { days: number; to?: string; flow?: string[]; against?: string; json?: boolean }) => {
+    process.exitCode = await withRuntime(configDir(), (rt) => backtestCommand(rt, options));
   });
 
 // Further commands register here, one module each under service/cli/commands/.

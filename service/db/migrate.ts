@@ -27,24 +27,9 @@ export function listMigrations(dir = MIGRATIONS_DIR): Migration[] {
  */
 export async function migrate(pool: pg.Pool, schema: string, migrations = listMigrations()): Promise<number[]> {
   const client = await pool.connect();
-  const s = quoteIdent(schema);
   try {
     await client.query('begin');
-    await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.migrate.${schema}`] });
-    await client.query(`create schema if not exists ${s}`);
-    await client.query(
-      `create table if not exists ${s}.migrations (version integer primary key, name text not null, applied_at timestamptz not null default now())`,
-    );
-    const { rows } = await client.query<{ version: number }>(`select version from ${s}.migrations`);
-    const applied = new Set(rows.map((row) => row.version));
-    const done: number[] = [];
-    await client.query(`set local search_path to ${s}`);
-    for (const migration of migrations) {
-      if (applied.has(migration.version)) continue;
-      await client.query(migration.sql);
-      await client.query({ text: `insert into ${s}.migrations (version, name) values ($1, $2)`, values: [migration.version, migration.name] });
-      done.push(migration.version);
-    }
+    const done = await applyMigrations(client, schema, migrations);
     await client.query('commit');
     return done;
   } catch (error) {
@@ -53,4 +38,25 @@ export async function migrate(pool: pg.Pool, schema: string, migrations = listMi
   } finally {
     client.release();
   }
+}
+
+/** The migrations, inside the caller's transaction (a backtest's throw-away schema lives and dies in one). */
+export async function applyMigrations(client: pg.ClientBase, schema: string, migrations = listMigrations()): Promise<number[]> {
+  const s = quoteIdent(schema);
+  await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.migrate.${schema}`] });
+  await client.query(`create schema if not exists ${s}`);
+  await client.query(`create table if not exists ${s}.migrations (version integer primary key, name text not null, applied_at timestamptz not null default now())`);
+  const { rows } = await client.query<{ version: number }>(`select version from ${s}.migrations`);
+  const applied = new Set(rows.map((row) => row.version));
+  const done: number[] = [];
+  await client.query(`set local search_path to ${s}`);
+  for (const migration of migrations) {
+    if (applied.has(migration.version)) continue;
+    await client.query(migration.sql);
+    await client.query({ text: `insert into ${s}.migrations (version, name) values ($1, $2)`, values: [migration.version, migration.name] });
+    done.push(migration.version);
+  }
+  // Later statements of the same transaction qualify their tables; do not leave them in this schema.
+  await client.query('reset search_path');
+  return done;
 }

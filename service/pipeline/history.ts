@@ -19,20 +19,21 @@ export interface FlowHistory {
 }
 
 export async function loadHistory(
-  state: pg.Pool,
+  state: pg.Pool | pg.ClientBase,
   schema: string,
   flow: FlowDefinition,
   calendar: readonly CalendarEntry[],
   from: string,
   to: string,
 ): Promise<FlowHistory> {
-  const [events, params, funnel, steps, status] = await Promise.all([
-    state.query<EventDayRow>(selectEventDays(schema, from, to, flow.events)),
-    state.query<ParamDayRow>(selectParamDays(schema, from, to, flow.events)),
-    state.query<FunnelDayRow>(selectFunnelDays(schema, from, to, flow.id)),
-    state.query<StepDayRow>(selectStepDays(schema, from, to, flow.id)),
-    state.query<Omit<DayStatusRow, 'newestAt' | 'rolledUpAt'> & { newestAt: Date | null; rolledUpAt: Date }>(selectDayStatus(schema, from, to)),
-  ]);
+  // One after another: a backtest reads through the single client of its transaction.
+  const events = await state.query<EventDayRow>(selectEventDays(schema, from, to, flow.events));
+  const params = await state.query<ParamDayRow>(selectParamDays(schema, from, to, flow.events));
+  const funnel = await state.query<FunnelDayRow>(selectFunnelDays(schema, from, to, flow.id));
+  const steps = await state.query<StepDayRow>(selectStepDays(schema, from, to, flow.id));
+  const status = await state.query<Omit<DayStatusRow, 'newestAt' | 'rolledUpAt'> & { newestAt: Date | null; rolledUpAt: Date }>(
+    selectDayStatus(schema, from, to),
+  );
   return {
     flow,
     from,
@@ -76,7 +77,7 @@ export function sliceInput(
 }
 
 /** Days earlier runs judged anomalous, per series, for baselines to leave out. */
-export async function loadAnomalousDays(state: pg.Pool, schema: string, flow: string, from: string, before: string): Promise<Record<string, string[]>> {
+export async function loadAnomalousDays(state: pg.Pool | pg.ClientBase, schema: string, flow: string, from: string, before: string): Promise<Record<string, string[]>> {
   const { rows } = await state.query<{ series_key: string; days: string[] }>({
     text: `select series_key, array_agg(to_char(day, 'YYYY-MM-DD') order by day) as days
       from ${quoteIdent(schema)}.findings where flow = $1 and day >= $2 and day < $3 group by series_key`,

@@ -1,6 +1,7 @@
 import { analyseCauses } from '../../checks/causes/index.js';
 import type { IncidentDraft } from '../../checks/causes/types.js';
 import { dayEnd } from '../../checks/time.js';
+import type pg from 'pg';
 import { addDays } from '../config/definitions.js';
 import { quoteIdent } from '../db/sql.js';
 import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
@@ -86,44 +87,65 @@ export async function probeRestatements(rt: Runtime, day: string): Promise<strin
   return restated;
 }
 
+/** Where judgements go: the live state schema by default, or a backtest's throw-away schema. */
+export interface JudgeTarget {
+  schema: string;
+  /**
+   * One client whose open transaction holds every write (a backtest rolls it
+   * back); without it each (flow, day) commits on its own, as a live run does.
+   */
+  client?: pg.ClientBase;
+}
+
 /**
  * Judges every flow on each of `days` (consecutive, oldest first) from the
- * stored rollups and stores the findings. History is loaded once per flow
- * and sliced per day; findings of a day join the anomalous days the next
- * day's baselines leave out, exactly as separate daily runs would see them.
+ * stored rollups and stores the findings, incidents and messages. History is
+ * loaded once per flow and sliced per day; findings of a day join the
+ * anomalous days the next day's baselines leave out, exactly as separate
+ * daily runs would see them. Live runs and backtests share this code.
  */
-export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date): Promise<FlowJudgement[]> {
+export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date, target?: JudgeTarget): Promise<FlowJudgement[]> {
   if (days.length === 0) return [];
   const historyDays = rt.config.main.judging.history_days;
   const from = addDays(days[0]!, -(historyDays - 1));
   const results: FlowJudgement[] = [];
   const policy = incidentPolicy(rt.config.main);
+  const writeSchema = target?.schema ?? rt.stateSchema;
+  const reader = target?.client ?? rt.state;
+  const write = async (work: (client: pg.ClientBase) => Promise<void>) => {
+    if (target?.client) return work(target.client);
+    const client = await rt.state.connect();
+    try {
+      await client.query('begin');
+      await work(client);
+      await client.query('commit');
+    } catch (error) {
+      await client.query('rollback');
+      throw error;
+    } finally {
+      client.release();
+    }
+  };
   for (const { config } of rt.config.flows) {
     const flow = rt.flows.find((f) => f.id === config.flow)!;
     const calendar = [...rt.config.main.calendar, ...config.calendar];
-    const history = await loadHistory(rt.state, rt.stateSchema, flow, calendar, from, days[days.length - 1]!);
-    const anomalous = await loadAnomalousDays(rt.state, rt.stateSchema, flow.id, from, days[0]!);
+    const history = await loadHistory(reader, rt.stateSchema, flow, calendar, from, days[days.length - 1]!);
+    // Days before the window keep the verdicts the live runs gave them.
+    const anomalous = await loadAnomalousDays(reader, rt.stateSchema, flow.id, from, days[0]!);
     for (const day of days) {
-      const judgement = await recordRun(rt, 'judge', day, flow.id, async () => {
+      const judge = async () => {
         const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
         const incidents = analyseCauses(input, result.findings);
-        const client = await rt.state.connect();
-        try {
-          // Findings, incidents and their messages change together or not at all.
-          await client.query('begin');
-          await storeJudgement(client, rt.stateSchema, flow.id, day, result.verdict, result.reason, result.findings);
-          await applyIncidentDrafts(client, rt.stateSchema, flow.id, day, incidents, policy, clock(day));
-          await client.query('commit');
-        } catch (error) {
-          await client.query('rollback');
-          throw error;
-        } finally {
-          client.release();
-        }
+        // Findings, incidents and their messages change together or not at all.
+        await write(async (client) => {
+          await storeJudgement(client, writeSchema, flow.id, day, result.verdict, result.reason, result.findings);
+          await applyIncidentDrafts(client, writeSchema, flow.id, day, incidents, policy, clock(day));
+        });
         return { ...result, incidents };
-      });
+      };
+      const judgement = target?.client ? await judge() : await recordRun(rt, 'judge', day, flow.id, judge);
       for (const finding of judgement.findings) (anomalous[finding.seriesKey] ??= []).push(day);
       results.push({ flow: flow.id, day, ...judgement });
     }
