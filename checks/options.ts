@@ -19,8 +19,10 @@ export function parseDuration(text: string): number | undefined {
 export const duration = () =>
   z
     .string({ error: 'expected a duration such as 30m, 3h or 2d' })
-    .refine((text) => parseDuration(text) !== undefined, { message: 'expected a duration such as 30m, 3h or 2d' })
+    .regex(DURATION, { message: 'expected a duration such as 30m, 3h or 2d' })
     .transform((text) => parseDuration(text)!);
+
+const PERCENT = 'expected a percentage such as 30% (or a fraction from 0 to 1)';
 
 /** A share written `30%` (or a fraction from 0 to 1), as a fraction. */
 export const percent = () =>
@@ -30,9 +32,9 @@ export const percent = () =>
         .string()
         .regex(/^\d+(\.\d+)?%$/, { message: 'expected a percentage such as 30%' })
         .transform((text) => Number(text.slice(0, -1)) / 100),
-      z.number().min(0).max(1),
+      z.number().min(0, { message: PERCENT }).max(1, { message: PERCENT }),
     ],
-    { error: 'expected a percentage such as 30% (or a fraction from 0 to 1)' },
+    { error: PERCENT },
   );
 
 /** How loudly a finding is delivered: page (mention the owner), warn (chat), note (digest only). */

@@ -27,8 +27,10 @@ program
   .argument('[dir]', 'configuration folder (default: --config)')
   .option('--strict', 'exit 1 when there are warnings')
   .option('--json', 'machine-readable output')
-  .action((dir: string | undefined, options: { strict?: boolean; json?: boolean }) => {
-    process.exitCode = validateCommand(dir ?? configDir(), options);
+  .option('--against-state', 'also compare step events, parameters and values with the rollups in the state database')
+  .option('--days <n>', 'with --against-state: rolled-up days to compare with', integer, 28)
+  .action(async (dir: string | undefined, options: { strict?: boolean; json?: boolean; againstState?: boolean; days: number }) => {
+    process.exitCode = await validateCommand(dir ?? configDir(), options);
   });
 
 program
@@ -63,6 +65,15 @@ program
   .option('--json', 'machine-readable output')
   .action(async (options: { days: number; to?: string; flow?: string[]; against?: string; json?: boolean }) => {
     process.exitCode = await withRuntime(configDir(), (rt) => backtestCommand(rt, options));
+  });
+
+program
+  .command('schema')
+  .description('write the JSON Schemas of plumbline.yaml and the flow files, for YAML editors to complete and check them')
+  .option('--out <dir>', 'folder for plumbline.schema.json and flow.schema.json (default: --config)')
+  .action(async (options: { out?: string }) => {
+    const { schemaCommand } = await import('./commands/schema.js');
+    process.exitCode = schemaCommand(options.out ?? configDir());
   });
 
 // Further commands register here, one module each under service/cli/commands/.

@@ -1,17 +1,14 @@
-import { existsSync, readdirSync, readFileSync } from 'node:fs';
-import { join, relative } from 'node:path';
-import { LineCounter, isMap, isSeq, parseDocument, type Document, type Node as YamlNode } from 'yaml';
+import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
+import { join, relative, resolve } from 'node:path';
 import { z } from 'zod';
 import { registry } from '../../checks/registry.js';
 import type { CheckModule } from '../../checks/types.js';
-import {
-  ConfigError,
-  closest,
-  describeValue,
-  pathToKey,
-  type ConfigProblem,
-} from './problems.js';
-import { flowSchema, mainSchema, type FlowConfig, type MainConfig } from './schema.js';
+import { checkFlowIds, crossCheck, type Checked } from './cross-check.js';
+import { issuesToProblems } from './issues.js';
+import { toJsonSchema } from './json-schema.js';
+import { ConfigError, pathToKey, sortProblems, type ConfigProblem } from './problems.js';
+import { flowSchema, mainSchema, REFERENCE_KEYS, type FlowConfig, type MainConfig } from './schema.js';
+import { SourceFile } from './source.js';
 
 export const MAIN_FILE = 'plumbline.yaml';
 export const FLOWS_DIR = 'flows';
@@ -19,10 +16,6 @@ export const FLOWS_DIR = 'flows';
 export interface LoadedFlow {
   file: string;
   config: FlowConfig;
-}
-
-interface ValidatedFlow extends LoadedFlow {
-  source: SourceFile;
 }
 
 export interface LoadedConfig {
@@ -33,191 +26,169 @@ export interface LoadedConfig {
   warnings: ConfigProblem[];
 }
 
-/** A parsed YAML file that can say where any path in it lives. */
-class SourceFile {
-  readonly lines = new LineCounter();
-  readonly document: Document;
-  constructor(
-    readonly name: string,
-    text: string,
-  ) {
-    this.document = parseDocument(text, { lineCounter: this.lines, prettyErrors: false, uniqueKeys: true });
-  }
-
-  /** Line and column of the value at `path` (or of its key with `at: 'key'`), else of the nearest parent. */
-  position(path: ReadonlyArray<PropertyKey>, at: 'key' | 'value' = 'value'): { line: number; column: number } {
-    let node: unknown = this.document.contents;
-    let offset = rangeStart(node) ?? 0;
-    for (const part of path) {
-      if (isMap(node)) {
-        const pair = node.items.find((item) => scalarValue(item.key) === part);
-        if (!pair) break;
-        offset = (at === 'key' && part === path[path.length - 1] ? rangeStart(pair.key) : rangeStart(pair.value ?? pair.key)) ?? offset;
-        node = pair.value;
-      } else if (isSeq(node) && typeof part === 'number') {
-        const item = node.items[part];
-        if (item === undefined) break;
-        offset = rangeStart(item) ?? offset;
-        node = item;
-      } else break;
-    }
-    const { line, col } = this.lines.linePos(offset);
-    return { line, column: col };
-  }
+export interface LoadOptions {
+  env?: NodeJS.ProcessEnv;
+  checks?: readonly CheckModule[];
+  /** Today in the business timezone, YYYY-MM-DD, for mutes that have ended (default: from the clock). */
+  today?: string;
+  /** Files inside this folder are named relative to it in problems (default: the working directory). */
+  cwd?: string;
 }
 
-function rangeStart(node: unknown): number | undefined {
-  return (node as YamlNode | undefined)?.range?.[0];
+/** Everything validation learned about a config folder; nothing in it throws. */
+export interface Inspection {
+  /** The folder as problems name it (relative to the working directory when inside it). */
+  name: string;
+  /** Names of the files read, main first: the order problems are listed in. */
+  files: string[];
+  /** Absent when plumbline.yaml is missing or invalid. */
+  main?: Checked<MainConfig>;
+  /** The flow files that passed their schema. */
+  flows: Array<Checked<FlowConfig> & { file: string }>;
+  problems: ConfigProblem[];
 }
 
-function scalarValue(node: unknown): unknown {
-  return node !== null && typeof node === 'object' && 'value' in node ? (node as { value: unknown }).value : node;
+/** Reads and validates `dir/plumbline.yaml` and `dir/flows/*.yaml`; throws ConfigError listing every problem when any is an error. */
+export function loadConfig(dir: string, options: LoadOptions = {}): LoadedConfig {
+  const inspection = inspectConfig(dir, options);
+  if (!inspection.main || inspection.problems.some((problem) => problem.severity === 'error')) throw new ConfigError(inspection.problems);
+  return {
+    dir,
+    main: inspection.main.config,
+    flows: inspection.flows.map(({ file, config }) => ({ file, config })),
+    warnings: inspection.problems,
+  };
 }
 
-/** Reads and validates `dir/plumbline.yaml` and `dir/flows/*.yaml`; throws ConfigError listing every error. */
-export function loadConfig(dir: string, options: { env?: NodeJS.ProcessEnv; checks?: readonly CheckModule[] } = {}): LoadedConfig {
+/** Validates a config folder and reports every problem at once: YAML syntax, schemas, environment references, cross-file rules. */
+export function inspectConfig(dir: string, options: LoadOptions = {}): Inspection {
   const env = options.env ?? process.env;
   const checks = options.checks ?? registry;
-  const problems: ConfigProblem[] = [];
+  const base = resolve(options.cwd ?? process.cwd());
   const display = (file: string) => {
-    const near = relative(process.cwd(), file);
+    const near = relative(base, resolve(file));
     return near === '' || near.startsWith('..') ? file : near;
   };
+  const problems: ConfigProblem[] = [];
+  const files: string[] = [];
 
   const mainPath = join(dir, MAIN_FILE);
-  if (!existsSync(mainPath)) {
-    throw new ConfigError([
-      { file: display(mainPath), line: 1, column: 1, key: '', expected: `a ${MAIN_FILE} file`, found: 'no such file', severity: 'error' },
-    ]);
+  let main: Checked<MainConfig> | undefined;
+  let mainPart: Checked<Partial<MainConfig>> | undefined;
+  if (existsSync(mainPath)) {
+    const source = new SourceFile(display(mainPath), readFileSync(mainPath, 'utf8'));
+    files.push(source.name);
+    const { config, partial } = validateFile(source, mainSchema, REFERENCE_KEYS, env, problems);
+    if (config) main = { source, config };
+    if (partial) mainPart = { source, config: partial };
+  } else {
+    files.push(display(mainPath));
+    problems.push({ file: display(mainPath), line: 1, column: 1, key: '', expected: `a ${MAIN_FILE} file`, found: 'no such file', severity: 'error' });
   }
-  const main = validateFile(new SourceFile(display(mainPath), readFileSync(mainPath, 'utf8')), mainSchema, env, problems);
 
-  const flows: ValidatedFlow[] = [];
   const flowsDir = join(dir, FLOWS_DIR);
-  const flowFiles = existsSync(flowsDir)
-    ? readdirSync(flowsDir)
-        .filter((name) => name.endsWith('.yaml') || name.endsWith('.yml'))
-        .sort()
+  const flowFiles = existsSync(flowsDir) && statSync(flowsDir).isDirectory()
+    ? readdirSync(flowsDir).filter((name) => /\.ya?ml$/.test(name)).sort()
     : [];
   const schema = flowSchema(checks);
+  const flows: Inspection['flows'] = [];
+  const parts: Array<Checked<Partial<FlowConfig>>> = [];
+  const raw: Array<{ source: SourceFile; data: unknown }> = [];
   for (const name of flowFiles) {
-    const file = display(join(flowsDir, name));
-    const source = new SourceFile(file, readFileSync(join(flowsDir, name), 'utf8'));
-    const config = validateFile(source, schema, env, problems);
-    if (config) flows.push({ file, config, source });
+    const source = new SourceFile(display(join(flowsDir, name)), readFileSync(join(flowsDir, name), 'utf8'));
+    files.push(source.name);
+    const { data, config, partial } = validateFile(source, schema, [], env, problems);
+    raw.push({ source, data });
+    if (config) flows.push({ file: source.name, source, config });
+    if (partial) parts.push({ source, config: partial });
   }
-  if (main) crossCheck(main, flows, problems);
-
-  const errors = problems.filter((problem) => problem.severity === 'error');
-  if (errors.length > 0 || !main) throw new ConfigError(problems);
-  return { dir, main, flows: flows.map(({ file, config }) => ({ file, config })), warnings: problems.filter((problem) => problem.severity === 'warning') };
+  const context = { checks, today: options.today ?? today(mainPart?.config.timezone) };
+  problems.push(...checkFlowIds(raw), ...crossCheck(mainPart, parts, context));
+  return { name: display(dir), files, ...(main ? { main } : {}), flows, problems: sortProblems(problems, files) };
 }
 
+/** Today's date in the business timezone, YYYY-MM-DD. */
+function today(timeZone = 'UTC'): string {
+  const parts = new Intl.DateTimeFormat('en-US', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(new Date());
+  const part = (type: string) => parts.find((p) => p.type === type)!.value;
+  return `${part('year')}-${part('month')}-${part('day')}`;
+}
+
+/**
+ * One file through YAML, environment references and its schema. A YAML syntax
+ * error stops there (the data would be a guess); a duplicate key does not, as
+ * YAML's reading of it (the last one wins) is still worth checking.
+ */
 function validateFile<S extends z.ZodType>(
   source: SourceFile,
   schema: S,
+  referenceKeys: readonly string[],
   env: NodeJS.ProcessEnv,
   problems: ConfigProblem[],
-): z.output<S> | undefined {
-  const file = source.name;
-  if (source.document.errors.length > 0) {
-    for (const error of source.document.errors) {
-      const { line, col } = source.lines.linePos(error.pos[0]);
-      problems.push({
-        file,
-        line,
-        column: col,
-        key: '',
-        expected: 'valid YAML',
-        found: error.message.split('\n')[0]!.replace(/ at line \d+, column \d+:?$/, ''),
-        severity: 'error',
-      });
-    }
-    return undefined;
+): { data?: unknown; config?: z.output<S>; partial?: Partial<z.output<S>> } {
+  problems.push(...source.syntaxProblems());
+  if (source.document.errors.some((error) => error.code !== 'DUPLICATE_KEY')) return {};
+  const read = source.data();
+  if ('problem' in read) {
+    problems.push(read.problem);
+    return {};
   }
-  const data: unknown = source.document.toJS();
   const before = problems.length;
-  checkEnvironmentReferences(source, data, [], env, problems);
-  const result = schema.safeParse(data, { reportInput: true });
-  if (result.success) return problems.length === before ? result.data : undefined;
-  const jsonSchema = z.toJSONSchema(schema, { io: 'input', unrepresentable: 'any' }) as JsonSchema;
-  for (const issue of result.error.issues) problems.push(...toProblems(source, issue, jsonSchema));
-  return undefined;
+  checkReferences(source, read.data, [], referenceKeys, env, problems);
+  const result = schema.safeParse(read.data, { reportInput: true });
+  if (!result.success) {
+    problems.push(...issuesToProblems(source, result.error.issues, toJsonSchema(schema)));
+    return { data: read.data, partial: salvage(schema, read.data) };
+  }
+  const failed = problems.slice(before).some((problem) => problem.severity === 'error') || source.document.errors.length > 0;
+  return { data: read.data, partial: result.data, ...(failed ? {} : { config: result.data }) };
 }
 
-interface JsonSchema {
-  properties?: Record<string, JsonSchema>;
-  items?: JsonSchema;
-  additionalProperties?: JsonSchema | boolean;
-  anyOf?: JsonSchema[];
-}
-
-function allowedKeys(schema: JsonSchema, path: ReadonlyArray<PropertyKey>): string[] {
-  let node: JsonSchema | undefined = schema;
-  for (const part of path) {
-    if (!node) return [];
-    node = node.anyOf?.find((option) => option.properties || option.items) ?? node;
-    if (typeof part === 'number') node = node.items;
-    else node = node.properties?.[String(part)] ?? (typeof node.additionalProperties === 'object' ? node.additionalProperties : undefined);
+/** The top-level keys of an invalid file that are valid on their own, for the cross-file rules. */
+function salvage<S extends z.ZodType>(schema: S, data: unknown): Partial<z.output<S>> {
+  const partial: Record<string, unknown> = {};
+  if (!(schema instanceof z.ZodObject) || data === null || typeof data !== 'object' || Array.isArray(data)) return partial as Partial<z.output<S>>;
+  for (const [key, field] of Object.entries(schema.shape as Record<string, z.ZodType>)) {
+    const result = field.safeParse((data as Record<string, unknown>)[key]);
+    if (result.success) partial[key] = result.data;
   }
-  node = node?.anyOf?.find((option) => option.properties) ?? node;
-  return Object.keys(node?.properties ?? {});
-}
-
-function toProblems(source: SourceFile, issue: z.core.$ZodIssue, jsonSchema: JsonSchema): ConfigProblem[] {
-  const path = issue.path as PropertyKey[];
-  const base = { file: source.name, severity: 'error' as const };
-  if (issue.code === 'unrecognized_keys') {
-    const known = allowedKeys(jsonSchema, path);
-    return issue.keys.map((key) => {
-      const suggestion = closest(key, known);
-      return {
-        ...base,
-        ...source.position([...path, key], 'key'),
-        key: pathToKey([...path, key]),
-        expected: known.length > 0 ? `one of the keys ${known.join(', ')}` : 'no such key',
-        found: `unknown key "${key}"`,
-        ...(suggestion ? { hint: `did you mean ${suggestion}?` } : {}),
-      };
-    });
-  }
-  const input = (issue as { input?: unknown }).input;
-  let expected: string;
-  switch (issue.code) {
-    case 'invalid_type':
-      expected = issue.message.startsWith('expected ') ? issue.message.slice('expected '.length) : issue.expected;
-      if (input === undefined) expected = `${expected} (the key is required)`;
-      break;
-    case 'invalid_value':
-      expected = `one of ${issue.values.map((value) => JSON.stringify(value)).join(', ')}`;
-      break;
-    case 'invalid_union':
-      expected = issue.message.replace(/^expected /, '');
-      if (expected.startsWith('Invalid input')) expected = 'a value of another form';
-      break;
-    default:
-      expected = issue.message.replace(/^expected /, '');
-  }
-  return [{ ...base, ...source.position(path), key: pathToKey(path), expected, found: describeValue(input) }];
+  return partial as Partial<z.output<S>>;
 }
 
 const REFERENCE = /\$\{([A-Za-z_][A-Za-z0-9_]*)(:-([^}]*))?\}/g;
 
-/** Reports `${NAME}` references (without a `:-` fallback) whose variable is unset. */
-function checkEnvironmentReferences(
+/**
+ * `${NAME}` references: in the keys read from the environment, the variable
+ * must be set unless a `:-` fallback is given; anywhere else a reference is
+ * never replaced, so it is flagged before it reaches a message as written.
+ */
+function checkReferences(
   source: SourceFile,
   value: unknown,
   path: PropertyKey[],
+  referenceKeys: readonly string[],
   env: NodeJS.ProcessEnv,
   problems: ConfigProblem[],
 ): void {
   if (typeof value === 'string') {
+    const key = pathToKey(path);
     for (const match of value.matchAll(REFERENCE)) {
+      if (!referenceKeys.includes(key)) {
+        problems.push({
+          file: source.name,
+          ...source.position(path),
+          key,
+          expected: `plain text (\${ENV} references are read only in ${REFERENCE_KEYS.join(', ')})`,
+          found: `"${match[0]}", which would be used as written`,
+          severity: 'warning',
+        });
+        return;
+      }
       if (match[2] === undefined && env[match[1]!] === undefined) {
         problems.push({
           file: source.name,
           ...source.position(path),
-          key: pathToKey(path),
+          key,
           expected: `the environment variable ${match[1]} to be set`,
           found: 'it unset',
           severity: 'error',
@@ -226,9 +197,9 @@ function checkEnvironmentReferences(
       }
     }
   } else if (Array.isArray(value)) {
-    value.forEach((item, index) => checkEnvironmentReferences(source, item, [...path, index], env, problems));
+    value.forEach((item, index) => checkReferences(source, item, [...path, index], referenceKeys, env, problems));
   } else if (value !== null && typeof value === 'object') {
-    for (const [key, item] of Object.entries(value)) checkEnvironmentReferences(source, item, [...path, key], env, problems);
+    for (const [key, item] of Object.entries(value)) checkReferences(source, item, [...path, key], referenceKeys, env, problems);
   }
 }
 
@@ -239,56 +210,4 @@ export function resolveReference(reference: string | undefined, env: NodeJS.Proc
     env[name] ?? (fallback !== undefined ? (fallbackValue ?? '') : ''),
   );
   return resolved === '' ? undefined : resolved;
-}
-
-/** Problems that span files: flow ids, platforms and owners must agree with the main file. */
-function crossCheck(main: MainConfig, flows: ValidatedFlow[], problems: ConfigProblem[]): void {
-  const seen = new Map<string, string>();
-  const platforms = Object.keys(main.warehouse.platforms);
-  for (const { file, config, source } of flows) {
-    const first = seen.get(config.flow);
-    if (first) {
-      problems.push({
-        file,
-        ...source.position(['flow']),
-        key: 'flow',
-        expected: 'a flow id used by one file only',
-        found: `"${config.flow}", already defined in ${first}`,
-        severity: 'error',
-      });
-    } else seen.set(config.flow, file);
-    config.platforms.forEach((platform, index) => {
-      if (!platforms.includes(platform)) {
-        problems.push({
-          file,
-          ...source.position(['platforms', index]),
-          key: `platforms[${index}]`,
-          expected: `a platform mapped in ${MAIN_FILE} (${platforms.join(', ')})`,
-          found: `"${platform}"`,
-          severity: 'error',
-        });
-      }
-    });
-    if (config.step_time_cap > config.conversion_window) {
-      problems.push({
-        file,
-        ...source.position(['step_time_cap']),
-        key: 'step_time_cap',
-        expected: 'a cap no longer than conversion_window',
-        found: `${config.step_time_cap}s against a ${config.conversion_window}s window`,
-        severity: 'error',
-      });
-    }
-    if (!(config.owner in main.owners)) {
-      problems.push({
-        file,
-        ...source.position(['owner']),
-        key: 'owner',
-        expected: `an owner listed under owners in ${MAIN_FILE}`,
-        found: `"${config.owner}"`,
-        severity: 'warning',
-        hint: 'without it nobody is mentioned in chat or e-mailed the digest',
-      });
-    }
-  }
 }

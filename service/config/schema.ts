@@ -1,3 +1,9 @@
+/**
+ * The zod schemas of `plumbline.yaml` and the flow files. They are the single
+ * source of truth: the loader validates with them, and `plumbline schema`
+ * turns them into the JSON Schemas editors use, so every `.describe()` here is
+ * what a config author sees on hover.
+ */
 import { z } from 'zod';
 import type { CheckModule } from '../../checks/types.js';
 import { cron, duration, isoDate, timeZone } from './units.js';
@@ -8,147 +14,210 @@ const slug = () =>
 const identifier = () => z.string().min(1).max(63);
 /** A value that must come from the environment: `${NAME}` or `${NAME:-fallback}`. */
 export const SECRET_REFERENCE = /^\$\{[A-Z_][A-Z0-9_]*(:-[^}]*)?\}$/;
+/** The keys read through `resolveReference`: the only places an `${ENV}` reference means anything. */
+export const REFERENCE_KEYS = ['warehouse.url', 'state.url', 'delivery.chat.webhook_url', 'delivery.email.smtp_url'] as const;
+
+const secretReference = (why: string) =>
+  z.string().regex(SECRET_REFERENCE, { message: `expected an \${ENV_VAR} reference (${why})` });
 
 const columns = z.strictObject({
-  time: identifier().default('occurred_at'),
-  name: identifier().default('event_name'),
-  user: identifier().default('user_id'),
-  device: identifier().default('device_id'),
-  platform: identifier().default('platform'),
-  version: identifier().default('app_version'),
-  params: identifier().default('props'),
+  time: identifier().default('occurred_at').describe('When the event happened (timestamp with time zone).'),
+  name: identifier().default('event_name').describe('Event name.'),
+  user: identifier().default('user_id').describe('Signed-in user id; may be null.'),
+  device: identifier().default('device_id').describe('Device or browser id, counted when the user id is null.'),
+  platform: identifier().default('platform').describe('Raw platform value, mapped by warehouse.platforms.'),
+  version: identifier().default('app_version').describe('App version; null on web is fine.'),
+  params: identifier().default('props').describe('Event parameters as a JSON object column.'),
 });
 
 const calendarEntry = z
   .strictObject({
-    date: isoDate().optional(),
-    from: isoDate().optional(),
-    to: isoDate().optional(),
-    /** Days of every month (1-31), for recurring highs such as pass renewals at month start. */
-    monthly: z.array(z.number().int().min(1).max(31)).min(1).optional(),
-    note: z.string().min(1),
-    expect: z.enum(['low', 'high']),
+    date: isoDate().optional().describe('A single day, YYYY-MM-DD.'),
+    from: isoDate().optional().describe('First day of a range (with to).'),
+    to: isoDate().optional().describe('Last day of a range (with from).'),
+    monthly: z
+      .array(z.number().int().min(1).max(31))
+      .min(1)
+      .optional()
+      .describe('Days of every month (1-31), for recurring highs such as pass renewals at month start.'),
+    note: z.string().min(1).describe('Shown beside findings on these days.'),
+    expect: z.enum(['low', 'high']).describe('Whether the days are expected to be low or high.'),
   })
-  .refine((entry) => [entry.date, entry.from ?? entry.to, entry.monthly].filter((v) => v !== undefined).length === 1, {
-    message: 'expected exactly one of date, from/to or monthly',
+  .superRefine((entry, ctx) => {
+    const kinds = { date: entry.date, 'from/to': entry.from ?? entry.to, monthly: entry.monthly };
+    const given = Object.entries(kinds)
+      .filter(([, value]) => value !== undefined)
+      .map(([kind]) => kind);
+    if (given.length !== 1) {
+      ctx.addIssue({
+        code: 'custom',
+        message: 'expected exactly one of date, from/to or monthly',
+        params: { found: given.length === 0 ? 'none of them' : given.join(' and ') },
+      });
+    }
+    if ((entry.from === undefined) !== (entry.to === undefined)) {
+      const missing = entry.from === undefined ? 'from' : 'to';
+      ctx.addIssue({ code: 'custom', path: [missing], message: 'expected both from and to', params: { found: `no ${missing}` } });
+    }
+    if (entry.from !== undefined && entry.to !== undefined && entry.from > entry.to) {
+      ctx.addIssue({ code: 'custom', path: ['to'], message: 'expected a day on or after from', params: { found: `${entry.to}, before ${entry.from}` } });
+    }
   })
-  .refine((entry) => (entry.from === undefined) === (entry.to === undefined), { message: 'expected both from and to' })
-  .refine((entry) => entry.from === undefined || entry.to === undefined || entry.from <= entry.to, {
-    message: 'expected from on or before to',
-  });
+  .describe('An expected high or low: one of date, from/to or monthly, with a note.');
 export type CalendarEntry = z.output<typeof calendarEntry>;
 
-const owner = z.strictObject({
-  /** Chat mention text for this owner, e.g. a user group id. */
-  chat_mention: z.string().optional(),
-  email: z.array(z.email()).default([]),
-});
+const owner = z
+  .strictObject({
+    chat_mention: z.string().optional().describe('Chat mention text for this owner, e.g. a user group id.'),
+    email: z.array(z.email()).default([]).describe('Recipients of the weekly digest.'),
+  })
+  .describe('A team that owns flows: how to reach it.');
 
-export const mainSchema = z.strictObject({
-  timezone: timeZone(),
-  warehouse: z.strictObject({
-    /** Connection string, as an environment reference; absent means the embedded demo database. */
-    url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (connection strings carry secrets)' }).optional(),
-    events_table: z.string().regex(/^[^.]+(\.[^.]+)?$/, { message: 'expected table or schema.table' }),
-    columns: columns.default(columns.parse({})),
-    /** Extra columns to break counts down by, for drill-down (e.g. country, channel). */
-    dimensions: z.array(identifier()).max(8).default([]),
-    /** Our platform names mapped to the raw values found in the platform column. */
-    platforms: z.record(slug(), z.array(z.string()).min(1)),
-    /** Memory for the rollup's grouping, per statement (PostgreSQL `work_mem` syntax). */
-    work_mem: z.string().regex(/^\d+(kB|MB|GB)$/, { message: 'expected a size such as 256MB' }).default('256MB'),
-  }),
-  state: z
-    .strictObject({
-      url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (connection strings carry secrets)' }).optional(),
-      schema: identifier().default('plumbline'),
-    })
-    .default({ schema: 'plumbline' }),
-  judging: z
-    .strictObject({
-      /** Wait this long after local midnight before judging the day that just ended. */
-      settle_time: duration().default(7200),
-      /** Days of rollup history handed to the checks. */
-      history_days: z.number().int().min(14).max(730).default(120),
-      /** Past days whose event counts are re-probed for late rows at every run. */
-      restatement_days: z.number().int().min(0).max(60).default(7),
-    })
-    .default({ settle_time: 7200, history_days: 120, restatement_days: 7 }),
-  calendar: z.array(calendarEntry).default([]),
-  owners: z.record(slug(), owner).default({}),
-  incidents: z
-    .strictObject({
-      /** An incident resolves after this many judged days without its symptoms. */
-      resolve_after_days: z.number().int().min(1).max(30).default(2),
-      /** At most one repeat notification per incident within this time (a severity rise). */
-      renotify_cooldown: duration().default(86400),
-    })
-    .default({ resolve_after_days: 2, renotify_cooldown: 86400 }),
-  delivery: z
-    .strictObject({
-      chat: z
-        .strictObject({
-          webhook_url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (webhook URLs are secrets)' }).optional(),
-        })
-        .default({}),
-      email: z
-        .strictObject({
-          smtp_url: z.string().regex(SECRET_REFERENCE, { message: 'expected an ${ENV_VAR} reference (SMTP URLs carry credentials)' }).optional(),
-          from: z.string().default('plumbline <plumbline@localhost>'),
-        })
-        .default({ from: 'plumbline <plumbline@localhost>' }),
-      /** Where payloads go when no webhook or SMTP server is configured (the demo). */
-      outbox_dir: z.string().default('.plumbline/outbox'),
-      /** Failed sends before a message is parked for a person to look at. */
-      max_attempts: z.number().int().min(1).max(50).default(8),
-      /** Never show parameter values in messages, pages or digests. */
-      hide_values: z.boolean().default(false),
-    })
-    .default({ chat: {}, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false }),
-  schedule: z
-    .strictObject({
-      daily_run: cron().default('30 6 * * *'),
-      weekly_digest: cron().default('0 8 * * 1'),
-      /** Missed days judged at start-up, at most. */
-      catch_up_days: z.number().int().min(0).max(90).default(7),
-    })
-    .default({ daily_run: '30 6 * * *', weekly_digest: '0 8 * * 1', catch_up_days: 7 }),
-  http: z
-    .strictObject({
-      port: z.number().int().min(1).max(65535).default(8080),
-      /** Base URL of the pages, used in chat links and the digest. */
-      public_url: z.url().default('http://localhost:8080'),
-    })
-    .default({ port: 8080, public_url: 'http://localhost:8080' }),
-});
+export const mainSchema = z
+  .strictObject({
+    timezone: timeZone().describe('IANA name of the business timezone; days run from local midnight to local midnight.'),
+    warehouse: z
+      .strictObject({
+        url: secretReference('connection strings carry secrets')
+          .optional()
+          .describe('${ENV} reference to the PostgreSQL holding the events table; absent means the embedded demo database.'),
+        events_table: z
+          .string({ error: 'expected the events table, as table or schema.table' })
+          .regex(/^[^.]+(\.[^.]+)?$/, { message: 'expected the events table, as table or schema.table' })
+          .describe('The events table, as table or schema.table.'),
+        columns: columns.default(columns.parse({})).describe('The column playing each role.'),
+        dimensions: z
+          .array(identifier())
+          .max(8)
+          .default([])
+          .describe('Extra columns to break counts down by, for drill-down (e.g. country, channel).'),
+        platforms: z
+          .record(slug(), z.array(z.string()).min(1))
+          .describe('Our platform names mapped to the raw values found in the platform column.'),
+        work_mem: z
+          .string()
+          .regex(/^\d+(kB|MB|GB)$/, { message: 'expected a size such as 256MB' })
+          .default('256MB')
+          .describe('Memory for the rollup grouping, per statement (PostgreSQL work_mem syntax).'),
+      })
+      .describe('Where the events are and how their columns map to plumbline roles.'),
+    state: z
+      .strictObject({
+        url: secretReference('connection strings carry secrets')
+          .optional()
+          .describe("${ENV} reference to the database holding plumbline's own schema; the warehouse when absent."),
+        schema: identifier().default('plumbline').describe("plumbline's own schema, created and migrated automatically."),
+      })
+      .default({ schema: 'plumbline' })
+      .describe("plumbline's own tables: rollups, runs, findings, incidents, outbox."),
+    judging: z
+      .strictObject({
+        settle_time: duration().default(7200).describe('Wait this long after local midnight before judging the day that just ended.'),
+        history_days: z.number().int().min(14).max(730).default(120).describe('Days of rollup history handed to the checks.'),
+        restatement_days: z
+          .number()
+          .int()
+          .min(0)
+          .max(60)
+          .default(7)
+          .describe('Past days whose event counts are re-probed for late rows at every run.'),
+      })
+      .default({ settle_time: 7200, history_days: 120, restatement_days: 7 })
+      .describe('When a day is judged and how much history the checks see.'),
+    calendar: z.array(calendarEntry).default([]).describe('Expected highs and lows for every flow.'),
+    owners: z.record(slug(), owner).default({}).describe('Owners named by the flow files.'),
+    incidents: z
+      .strictObject({
+        resolve_after_days: z.number().int().min(1).max(30).default(2).describe('An incident resolves after this many judged days without its symptoms.'),
+        renotify_cooldown: duration()
+          .default(86400)
+          .describe('At most one repeat notification per incident within this time (a severity rise).'),
+      })
+      .default({ resolve_after_days: 2, renotify_cooldown: 86400 })
+      .describe('When incidents resolve and how often they notify again.'),
+    delivery: z
+      .strictObject({
+        chat: z
+          .strictObject({
+            webhook_url: secretReference('webhook URLs are secrets')
+              .optional()
+              .describe('${ENV} reference to the chat webhook; without it payloads are written to outbox_dir.'),
+          })
+          .default({}),
+        email: z
+          .strictObject({
+            smtp_url: secretReference('SMTP URLs carry credentials')
+              .optional()
+              .describe('${ENV} reference to the SMTP server for the weekly digest; without it the digest is written to outbox_dir.'),
+            from: z.string().default('plumbline <plumbline@localhost>').describe('Sender of the digest.'),
+          })
+          .default({ from: 'plumbline <plumbline@localhost>' }),
+        outbox_dir: z.string().default('.plumbline/outbox').describe('Where payloads go when no webhook or SMTP server is configured (the demo).'),
+        max_attempts: z.number().int().min(1).max(50).default(8).describe('Failed sends before a message is parked for a person to look at.'),
+        hide_values: z.boolean().default(false).describe('Never show parameter values in messages, pages or digests.'),
+      })
+      .default({ chat: {}, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false })
+      .describe('Chat messages per incident and the weekly e-mail digest.'),
+    schedule: z
+      .strictObject({
+        daily_run: cron().default('30 6 * * *').describe('When the daily run starts (cron, business timezone).'),
+        weekly_digest: cron().default('0 8 * * 1').describe('When the weekly digest is sent (cron, business timezone).'),
+        catch_up_days: z.number().int().min(0).max(90).default(7).describe('Missed days judged at start-up, at most.'),
+      })
+      .default({ daily_run: '30 6 * * *', weekly_digest: '0 8 * * 1', catch_up_days: 7 })
+      .describe('When the daily run and the weekly digest happen, in the business timezone.'),
+    http: z
+      .strictObject({
+        port: z.number().int().min(1).max(65535).default(8080).describe('Port of the pages and the health endpoints.'),
+        public_url: z.url().default('http://localhost:8080').describe('Base URL of the pages, used in chat links and the digest.'),
+      })
+      .default({ port: 8080, public_url: 'http://localhost:8080' })
+      .describe('The pages and the health endpoints.'),
+  })
+  .meta({ title: 'plumbline.yaml', description: 'plumbline: warehouse mapping, timezone, owners, delivery and schedule.' });
 export type MainConfigInput = z.input<typeof mainSchema>;
 export type MainConfig = z.output<typeof mainSchema>;
 
 const scalar = z.union([z.string(), z.number(), z.boolean()]);
 
-const paramContract = z.strictObject({
-  type: z.enum(['string', 'integer', 'number', 'boolean', 'object', 'array']),
-  enum: z.array(scalar).min(1).optional(),
-  min: z.number().optional(),
-  max: z.number().optional(),
-  required: z.boolean().default(false),
-  nullable: z.boolean().default(false),
-});
+const paramContract = z
+  .strictObject({
+    type: z.enum(['string', 'integer', 'number', 'boolean', 'object', 'array']).describe('JSON type of the value.'),
+    enum: z.array(scalar).min(1).optional().describe('The only values allowed.'),
+    min: z.number().optional().describe('Smallest number allowed.'),
+    max: z.number().optional().describe('Largest number allowed.'),
+    required: z.boolean().default(false).describe('Every event must carry the key.'),
+    nullable: z.boolean().default(false).describe('JSON null is an allowed value.'),
+  })
+  .superRefine((contract, ctx) => {
+    if (contract.min !== undefined && contract.max !== undefined && contract.min > contract.max) {
+      ctx.addIssue({ code: 'custom', path: ['max'], message: 'expected max at or above min', params: { found: `${contract.max}, below min ${contract.min}` } });
+    }
+  });
 
 const step = z.strictObject({
-  name: slug(),
-  event: z.string().min(1),
-  where: z.record(z.string().min(1), z.union([scalar, z.array(scalar).min(1)])).default({}),
+  name: slug().describe('Step name, used in messages and pages.'),
+  event: z.string().min(1).describe('Event that marks the step.'),
+  where: z
+    .record(z.string().min(1), z.union([scalar, z.array(scalar).min(1)]))
+    .default({})
+    .describe('Parameter values the event must carry: a value, or a list of accepted values.'),
 });
 
-const mute = z.strictObject({
-  check: slug(),
-  platform: slug().optional(),
-  /** Event, step or `event.param` the mute applies to; all subjects when absent. */
-  subject: z.string().optional(),
-  until: isoDate(),
-  reason: z.string().min(3),
-});
+const mute = z
+  .strictObject({
+    check: slug().describe('Id of the check whose findings are silenced.'),
+    platform: slug().optional().describe('Only this platform; all when absent.'),
+    subject: z.string().optional().describe('Event, step or event.param the mute applies to; all subjects when absent.'),
+    until: isoDate('expected an end date written YYYY-MM-DD (required: every mute expires)').describe(
+      'Last day muted, YYYY-MM-DD: every mute expires.',
+    ),
+    reason: z
+      .string({ error: (issue) => (issue.input === undefined ? 'expected a reason (required: every mute says why)' : 'expected text') })
+      .min(3, { message: 'expected a reason of at least 3 characters' })
+      .describe('Why the findings are silenced; shown where they are recorded.'),
+  })
+  .describe('Findings still recorded, never notified, until the end date.');
 
 /** Options of one check with per-platform overrides, merged and defaulted. */
 function checkOptions(module: CheckModule) {
@@ -156,9 +225,8 @@ function checkOptions(module: CheckModule) {
   const partial = base.partial();
   return base
     .extend({
-      /** Every registered check runs on every flow unless turned off here. */
-      enabled: z.boolean().default(true),
-      per_platform: z.record(slug(), partial).default({}),
+      enabled: z.boolean().default(true).describe('Every registered check runs on every flow unless turned off here.'),
+      per_platform: z.record(slug(), partial).default({}).describe('Options that differ on one platform, e.g. android: { ... }.'),
     })
     .transform((value) => {
       const { per_platform: overrides, ...flowLevel } = value as Record<string, unknown> & { per_platform: Record<string, object> };
@@ -167,7 +235,8 @@ function checkOptions(module: CheckModule) {
         per_platform[platform] = { ...flowLevel, ...stripUndefined(override) };
       }
       return { ...flowLevel, per_platform };
-    });
+    })
+    .describe(module.description);
 }
 
 function stripUndefined(value: object): object {
@@ -176,34 +245,43 @@ function stripUndefined(value: object): object {
 
 export function flowSchema(checks: readonly CheckModule[]) {
   const checkShape: Record<string, z.ZodType> = {};
-  const defaults: Record<string, unknown> = {};
-  for (const module of checks) {
-    checkShape[module.id] = checkOptions(module).optional();
-    defaults[module.id] = {};
-  }
-  return z.strictObject({
-    flow: slug(),
-    title: z.string().optional(),
-    owner: slug(),
-    steps: z.array(step).min(2, { message: 'a flow needs at least two steps' }),
-    conversion_window: duration(),
-    step_time_cap: duration(),
-    entry: z.enum(['first_step_only', 'any_step']).default('first_step_only'),
-    platforms: z.array(slug()).min(1),
-    /** Declared parameter contract per event. */
-    events: z.record(z.string().min(1), z.strictObject({ params: z.record(z.string().min(1), paramContract).default({}) })).default({}),
-    /** Extra events to watch besides the step events. */
-    watch: z.array(z.string().min(1)).default([]),
-    checks: z
-      .strictObject(checkShape)
-      .default({})
-      .transform((given: Record<string, unknown>) => {
-        const resolved: Record<string, unknown> = {};
-        for (const module of checks) resolved[module.id] = given[module.id] ?? checkOptions(module).parse({});
-        return resolved;
-      }),
-    calendar: z.array(calendarEntry).default([]),
-    mutes: z.array(mute).default([]),
-  });
+  for (const module of checks) checkShape[module.id] = checkOptions(module).optional();
+  return z
+    .strictObject({
+      flow: slug().describe('Id of the flow, used in URLs and messages.'),
+      title: z.string().optional().describe('Human name of the flow.'),
+      owner: slug().describe('An owner from plumbline.yaml.'),
+      steps: z
+        .array(step)
+        .min(2, { message: 'expected at least two steps (a flow goes from one step to another)' })
+        .describe('Ordered steps; a person must pass them in order.'),
+      conversion_window: duration().describe('Longest time from the first step to the last, e.g. 30m.'),
+      step_time_cap: duration().describe('Step-to-step times above this are left out of timing statistics.'),
+      entry: z
+        .enum(['first_step_only', 'any_step'])
+        .default('first_step_only')
+        .describe("first_step_only: the day's cohort is people whose first step happened that day; any_step: people may enter at any step."),
+      platforms: z.array(slug()).min(1).describe('Platforms the flow runs on, from warehouse.platforms.'),
+      events: z
+        .record(
+          z.string().min(1),
+          z.strictObject({ params: z.record(z.string().min(1), paramContract).default({}).describe('Declared parameters, by key.') }),
+        )
+        .default({})
+        .describe('Declared parameter contract per event.'),
+      watch: z.array(z.string().min(1)).default([]).describe('Extra events to watch besides the step events.'),
+      checks: z
+        .strictObject(checkShape)
+        .default({})
+        .transform((given: Record<string, unknown>) => {
+          const resolved: Record<string, unknown> = {};
+          for (const module of checks) resolved[module.id] = given[module.id] ?? checkOptions(module).parse({});
+          return resolved;
+        })
+        .describe('Options per check; every check runs with its defaults unless given here.'),
+      calendar: z.array(calendarEntry).default([]).describe('Expected highs and lows of this flow (campaigns).'),
+      mutes: z.array(mute).default([]).describe('Silenced findings, each with an end date and a reason.'),
+    })
+    .meta({ title: 'plumbline flow', description: 'One flow: its ordered steps, platforms, parameter contracts, check options, calendar and mutes.' });
 }
 export type FlowConfig = z.output<ReturnType<typeof flowSchema>>;
