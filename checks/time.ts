@@ -15,18 +15,30 @@ export function weekday(day: Day): number {
   return new Date(`${day}T12:00:00Z`).getUTCDay();
 }
 
+const formatters = new Map<string, Intl.DateTimeFormat>();
+
+/** One formatter per timezone: building one costs far more than using it. */
+function formatterFor(timezone: string): Intl.DateTimeFormat {
+  let formatter = formatters.get(timezone);
+  if (!formatter) {
+    formatter = new Intl.DateTimeFormat('en-US', {
+      timeZone: timezone,
+      hourCycle: 'h23',
+      year: 'numeric',
+      month: '2-digit',
+      day: '2-digit',
+      hour: '2-digit',
+      minute: '2-digit',
+      second: '2-digit',
+    });
+    formatters.set(timezone, formatter);
+  }
+  return formatter;
+}
+
 /** Offset of `timezone` from UTC at `instant`, in milliseconds (positive east of Greenwich). */
 function offsetAt(instant: number, timezone: string): number {
-  const parts = new Intl.DateTimeFormat('en-US', {
-    timeZone: timezone,
-    hourCycle: 'h23',
-    year: 'numeric',
-    month: '2-digit',
-    day: '2-digit',
-    hour: '2-digit',
-    minute: '2-digit',
-    second: '2-digit',
-  }).formatToParts(new Date(instant));
+  const parts = formatterFor(timezone).formatToParts(new Date(instant));
   const get = (type: string) => Number(parts.find((part) => part.type === type)!.value);
   const asUtc = Date.UTC(get('year'), get('month') - 1, get('day'), get('hour'), get('minute'), get('second'));
   return asUtc - Math.floor(instant / 1000) * 1000;

@@ -222,7 +222,11 @@ const mute = z
 /** Options of one check with per-platform overrides, merged and defaulted. */
 function checkOptions(module: CheckModule) {
   const base = module.options as z.ZodObject;
-  const partial = base.partial();
+  // Overrides name only what differs: their fields must not fall back to defaults (zod's partial() keeps them),
+  // or an override of one option would reset the others to their defaults instead of the flow-level values.
+  const partial = z.strictObject(
+    Object.fromEntries(Object.entries(base.shape).map(([key, field]) => [key, (field instanceof z.ZodDefault ? field.unwrap() : field).optional()])),
+  );
   return base
     .extend({
       enabled: z.boolean().default(true).describe('Every registered check runs on every flow unless turned off here.'),
