@@ -134,7 +134,7 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
       },
     };
   }
-  const measure = measureOf(finding, input);
+  const measure = measureOf(finding, input.flow);
   if (!measure) return undefined;
   const versions = versionsOn(input, platform, input.day);
   if (versions.length < 2) return undefined;
@@ -208,7 +208,7 @@ function shareOfPlatform(input: CheckInput, platform: string, version: string): 
 function platformOnly(finding: Finding, input: CheckInput): Attribution | undefined {
   const platform = finding.platform;
   if (platform === null) return undefined;
-  const measure = measureOf(finding, input);
+  const measure = measureOf(finding, input.flow);
   if (!measure) return undefined;
   const days = baselineDays(input);
   const own = relativeChange(input, measure, all(platform), days);
@@ -237,7 +237,7 @@ function formatSigned(change: number): string {
 }
 
 function segment(finding: Finding, input: CheckInput): Attribution | undefined {
-  const measure = measureOf(finding, input);
+  const measure = measureOf(finding, input.flow);
   if (!measure || measure.kind === 'step_people') return undefined;
   const days = baselineDays(input);
   const candidates: Array<{ dimension: string; values: ValueChange[] }> = [];
@@ -302,7 +302,7 @@ function calendar(finding: Finding, input: CheckInput): Attribution | undefined 
 }
 
 function behaviour(finding: Finding, input: CheckInput): Attribution {
-  const measure = measureOf(finding, input);
+  const measure = measureOf(finding, input.flow);
   const days = baselineDays(input);
   const changes = measure
     ? input.flow.platforms.map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) })).filter((c) => Number.isFinite(c.change))

@@ -4,7 +4,7 @@
  * same question of every slice: "was it one version? one platform? one
  * country?". Pure: reads only the CheckInput rows.
  */
-import { ALL_VERSIONS, type CheckInput, type Day, type Finding } from '../types.js';
+import { ALL_VERSIONS, type CheckInput, type Day, type Finding, type FlowDefinition } from '../types.js';
 
 export type Measure =
   /** People reaching step k among those reaching step k - 1 (ordered funnel). */
@@ -39,16 +39,16 @@ export function rate(ratio: Ratio): number {
 }
 
 /** The measure a finding is about, from its subject and metric; undefined when it has none (freshness, schema). */
-export function measureOf(finding: Finding, input: CheckInput): Measure | undefined {
-  const stepIndex = (name: string | undefined) => input.flow.steps.findIndex((step) => step.name === name);
+export function measureOf(finding: Finding, flow: FlowDefinition): Measure | undefined {
+  const stepIndex = (name: string | undefined) => flow.steps.findIndex((step) => step.name === name);
   const { subject, metric } = finding;
   const isConversion = metric.includes('conversion') || metric.includes('ratio') || metric.includes('share');
   if (subject.type === 'flow') return { kind: 'flow_conversion', label: 'flow completion' };
   if (subject.type === 'step') {
     const step = stepIndex(subject.step ?? subject.name);
     if (step < 0) return undefined;
-    const name = input.flow.steps[step]!.name;
-    if (isConversion && step > 0) return { kind: 'step_conversion', step, label: `${input.flow.steps[step - 1]!.name} -> ${name} conversion` };
+    const name = flow.steps[step]!.name;
+    if (isConversion && step > 0) return { kind: 'step_conversion', step, label: `${flow.steps[step - 1]!.name} -> ${name} conversion` };
     return step > 0 ? { kind: 'step_people', step, label: `people at the ${name} step` } : { kind: 'flow_conversion', label: 'flow completion' };
   }
   if (subject.type === 'event') {

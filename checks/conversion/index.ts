@@ -58,8 +58,8 @@ import { optionsFor, severity } from '../options.js';
 import { baselineExclusions, excerpt } from '../series.js';
 import { chiSquareHomogeneity, newcombeDifference, twoProportionZ, wilson, zForConfidence } from '../stats/index.js';
 import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../types.js';
-import { anomalousSince, calendarSeverity } from './finding-context.js';
-import { conversionSettled, funnelTotals, rateSeries, transitions, type RateSeries, type Transition } from './funnel-rates.js';
+import { anomalousSince, calendarSeverity } from '../findings.js';
+import { conversionSettled, funnelTotals, rateSeries, transitions, type RateSeries, type Transition } from '../funnel.js';
 
 /** Fewest usable baseline days for a judgement: one week, each weekday once. */
 const MIN_BASELINE_DAYS = 7;

@@ -40,7 +40,7 @@ import { baselineExclusions, excerpt } from '../series.js';
 import { robustLocationScale } from '../stats/index.js';
 import { ALL_VERSIONS, type CheckInput, type CheckModule, type Finding, type FlowStep, type WithPlatforms } from '../types.js';
 import { MIN_BASELINE_DAYS, divergence, type PlatformSeries } from './divergence.js';
-import { anomalousSince, calendarSeverity } from './finding-context.js';
+import { anomalousSince, calendarSeverity } from '../findings.js';
 
 const EXCERPT_DAYS = 28;
 /** A step or event counts as absent at or below this share of its usual people (a few stragglers from cached clients). */

@@ -60,7 +60,7 @@ import { formatCount, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent, severity } from '../options.js';
 import { excerpt } from '../series.js';
 import type { CheckInput, CheckModule, Finding, Severity, WithPlatforms } from '../types.js';
-import { anomalousSince, calendarSeverity } from '../parity/finding-context.js';
+import { anomalousSince, calendarSeverity } from '../findings.js';
 import { buildProfiles } from './profile.js';
 import { contractDrafts, driftDrafts, dropEchoes, pairRenames, undeclaredDrafts, type Draft, type Kind } from './rules.js';
 import { EventScope } from './scope.js';

@@ -56,7 +56,7 @@ import { baselineExclusions, excerpt } from '../series.js';
 import { SEASONAL_DEFAULTS, judgeLatest, type SeasonalJudgement } from '../stats/index.js';
 import { weekday } from '../time.js';
 import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../types.js';
-import { anomalousSince, calendarSeverity } from '../conversion/finding-context.js';
+import { anomalousSince, calendarSeverity } from '../findings.js';
 import { seriesFor, type JudgedSeries, type SeriesKind } from './series.js';
 
 const EXCERPT_DAYS = 28;

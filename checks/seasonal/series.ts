@@ -13,7 +13,7 @@
  * unknown (NaN). A rate is unknown on a day nobody reached its denominator
  * step, a median time on a day with no timed step.
  */
-import { conversionSettled, funnelTotals, rateSeries, transitions } from '../conversion/funnel-rates.js';
+import { conversionSettled, funnelTotals, rateSeries, transitions } from '../funnel.js';
 import { dailySeries } from '../series.js';
 import { ALL_VERSIONS, type CheckInput, type Finding } from '../types.js';
 

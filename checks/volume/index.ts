@@ -35,7 +35,8 @@
 import { z } from 'zod';
 import { formatNumber, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent, severity } from '../options.js';
-import { baselineExclusions, excerpt, runStart, withoutDays } from '../series.js';
+import { anomalousSince } from '../findings.js';
+import { baselineExclusions, excerpt, withoutDays } from '../series.js';
 import { weekday } from '../time.js';
 import type { CheckInput, CheckModule, Finding, FlowStep, Severity, WithPlatforms } from '../types.js';
 import { expectation, logRatio } from './baseline.js';
@@ -188,7 +189,7 @@ function finding(input: CheckInput, judged: Judged, kind: keyof typeof messages,
   const { series, observed, center } = judged;
   const last = input.days.length - 1;
   const flaggedDays = new Set([...(input.anomalous[judged.seriesKey] ?? []), input.day]);
-  const since = runStart(input.days, flaggedDays) ?? input.day;
+  const since = anomalousSince(input, judged.seriesKey) ?? input.day;
   const entry = input.calendar.find((day) => day.day === input.day);
   // A declared low (high) day explains fewer (more) people, not a silence nor a change in events per person.
   const explained = entry !== undefined && (kind === 'drop' || kind === 'rise') && (entry.expect === 'low') === (direction === 'down');

@@ -3,6 +3,7 @@
  * sightings and the outbox are read through their own modules
  * (service/incidents/store.ts, service/delivery/outbox.ts).
  */
+import type { Measure } from '../../../checks/causes/measures.js';
 import type { Day } from '../../../checks/types.js';
 import { quoteIdent, type Query } from '../../db/sql.js';
 
@@ -45,18 +46,6 @@ export function recentRunsQuery(schema: string, limit: number, failedOnly = fals
 }
 
 /** The measure a per-version split shows; mirrors the cause analysis's measures (checks/causes/measures.ts). */
-export type SplitMeasure =
-  /** People reaching step k among those reaching step k - 1 (ordered funnel of the cohort entering that day). */
-  | { kind: 'step_conversion'; step: number }
-  /** People completing the flow among those entering it. */
-  | { kind: 'flow_conversion'; last: number }
-  /** People sending step k's event (any order) per person at step 0 (any order). */
-  | { kind: 'step_people'; step: number }
-  /** People sending an event per person at the flow's first step (any order). */
-  | { kind: 'event_people'; event: string }
-  /** Events per person of one event. */
-  | { kind: 'events_per_person'; event: string };
-
 /** Numerator and denominator of a measure on one day for one app version ('*': the platform total). */
 export interface SplitRow {
   day: Day;
@@ -66,14 +55,14 @@ export interface SplitRow {
 }
 
 /** The measure per day and app version on one platform over [from, to], from the rollups (never raw events). */
-export function splitQuery(schema: string, o: { flow: string; platform: string; measure: SplitMeasure; anyStepEntry: boolean; from: Day; to: Day }): Query {
+export function splitQuery(schema: string, o: { flow: string; lastStep: number; platform: string; measure: Measure; anyStepEntry: boolean; from: Day; to: Day }): Query {
   const s = quoteIdent(schema);
   const day = `to_char(day, 'YYYY-MM-DD') as day`;
   const m = o.measure;
   switch (m.kind) {
     case 'step_conversion':
     case 'flow_conversion': {
-      const [den, num] = m.kind === 'step_conversion' ? [m.step - 1, m.step] : [0, m.last];
+      const [den, num] = m.kind === 'step_conversion' ? [m.step - 1, m.step] : [0, o.lastStep];
       // With entry: any_step, people who started at step k did not come from step k - 1.
       const reached = m.kind === 'step_conversion' && o.anyStepEntry ? 'reached - entered' : 'reached';
       return {

@@ -8,7 +8,8 @@
 import { ALL_VERSIONS, type Day, type FlowDefinition, type Finding } from '../../../checks/types.js';
 import { addDays } from '../../../checks/time.js';
 import type { Db } from '../../incidents/store.js';
-import { splitQuery, type SplitMeasure, type SplitRow } from './queries.js';
+import { measureOf, type Measure } from '../../../checks/causes/measures.js';
+import { splitQuery, type SplitRow } from './queries.js';
 
 /** Longest stretch of days the split covers (the newest ones of a long incident). */
 export const SPLIT_MAX_DAYS = 28;
@@ -40,32 +41,24 @@ export interface VersionSplit {
   days: Array<{ day: Day; blamed: Ratio; rest: Ratio }>;
 }
 
-/** The measure behind a symptom, chosen as the cause analysis chooses it; undefined for symptoms without one (freshness, schema). */
-export function splitMeasureOf(finding: Finding, flow: FlowDefinition): { measure: SplitMeasure; labels: VersionSplit['labels'] } | undefined {
-  const { subject, metric } = finding;
+/** The measure behind a symptom, the one the cause analysis compares versions on; undefined for symptoms without one (freshness, schema). */
+export function splitMeasureOf(finding: Finding, flow: FlowDefinition): { measure: Measure; labels: VersionSplit['labels'] } | undefined {
+  const measure = measureOf(finding, flow);
+  if (!measure) return undefined;
   const steps = flow.steps.map((step) => step.name);
-  const last = steps.length - 1;
-  const isConversion = /conversion|ratio|share/.test(metric);
-  const completion = { measure: { kind: 'flow_conversion' as const, last }, labels: { measure: 'flow completion', den: `people entering at ${steps[0]}`, num: `people completing at ${steps[last]}`, percent: true } };
-  if (subject.type === 'flow') return completion;
-  if (subject.type === 'step') {
-    const step = steps.indexOf(subject.step ?? subject.name);
-    if (step < 0) return undefined;
-    if (step === 0) return completion;
-    const name = steps[step]!;
-    if (isConversion) {
-      return { measure: { kind: 'step_conversion', step }, labels: { measure: `${steps[step - 1]} -> ${name} conversion`, den: `people at ${steps[step - 1]}`, num: `people at ${name}`, percent: true } };
-    }
-    return { measure: { kind: 'step_people', step }, labels: { measure: `people at ${name} per person at ${steps[0]} (any order)`, den: `people at ${steps[0]}`, num: `people at ${name}`, percent: true } };
+  const first = steps[0]!;
+  switch (measure.kind) {
+    case 'flow_conversion':
+      return { measure, labels: { measure: measure.label, den: `people entering at ${first}`, num: `people completing at ${steps[steps.length - 1]}`, percent: true } };
+    case 'step_conversion':
+      return { measure, labels: { measure: measure.label, den: `people at ${steps[measure.step - 1]}`, num: `people at ${steps[measure.step]}`, percent: true } };
+    case 'step_people':
+      return { measure, labels: { measure: `${measure.label} per person at ${first} (any order)`, den: `people at ${first}`, num: `people at ${steps[measure.step]}`, percent: true } };
+    case 'event_people':
+      return { measure, labels: { measure: `${measure.label} per person at ${first}`, den: `people at ${first}`, num: measure.label, percent: true } };
+    case 'events_per_person':
+      return { measure, labels: { measure: measure.label, den: `people sending ${measure.event}`, num: `${measure.event} events`, percent: false } };
   }
-  if (subject.type === 'event') {
-    const event = subject.event ?? subject.name;
-    if (metric.includes('per_person')) {
-      return { measure: { kind: 'events_per_person', event }, labels: { measure: `${event} events per person`, den: `people sending ${event}`, num: `${event} events`, percent: false } };
-    }
-    return { measure: { kind: 'event_people', event }, labels: { measure: `people sending ${event} per person at ${steps[0]}`, den: `people at ${steps[0]}`, num: `people sending ${event}`, percent: true } };
-  }
-  return undefined;
 }
 
 const add = (a: Ratio, b: Ratio): Ratio => ({ num: a.num + b.num, den: a.den + b.den });
@@ -93,7 +86,7 @@ export async function loadVersionSplit(
   if (!chosen) return { missing: 'its symptoms have no per-version measure (parameter and freshness findings have none)' };
   const earliest = addDays(o.lastSeen, -(SPLIT_MAX_DAYS - 1));
   const from = o.since > earliest ? o.since : earliest;
-  const { rows } = await db.query<SplitRow>(splitQuery(schema, { flow: o.flow.id, platform: o.platform, measure: chosen.measure, anyStepEntry: o.flow.entry === 'any_step', from, to: o.lastSeen }));
+  const { rows } = await db.query<SplitRow>(splitQuery(schema, { flow: o.flow.id, lastStep: o.flow.steps.length - 1, platform: o.platform, measure: chosen.measure, anyStepEntry: o.flow.entry === 'any_step', from, to: o.lastSeen }));
   if (rows.length === 0) return { missing: `the rollups hold no ${o.platform} rows for ${chosen.labels.measure} from ${from} to ${o.lastSeen}` };
 
   const perVersion = new Map<string, Ratio>();

@@ -4,8 +4,8 @@
  * trials of each on one platform, from the platform totals (version '*', no
  * dimension).
  */
-import { dayEnd } from '../time.js';
-import { ALL_VERSIONS, type CheckInput, type Day, type FlowDefinition } from '../types.js';
+import { dayEnd } from './time.js';
+import { ALL_VERSIONS, type CheckInput, type Day, type FlowDefinition } from './types.js';
 
 export interface Transition {
   /** Series id part: `zone->rider`, or `intro->done` for end to end. */

@@ -1,11 +1,10 @@
 /**
- * What a finding of `parity` or `schema` says about its day beyond the
- * numbers: the calendar note with the severity it implies, and since when its
- * series has been anomalous. (checks/conversion/finding-context.ts holds the
- * same two rules; see the report asking to share them from checks/series.ts.)
+ * What a finding says about its day beyond the numbers, shared by the checks:
+ * the calendar note with the severity it implies, and since when its series
+ * has been anomalous.
  */
-import { runStart } from '../series.js';
-import type { CheckInput, Day, Finding, Severity } from '../types.js';
+import { runStart } from './series.js';
+import type { CheckInput, Day, Finding, Severity } from './types.js';
 
 /**
  * On a declared low day that drops (or high day that rises) the move was
