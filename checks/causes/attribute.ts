@@ -10,9 +10,11 @@ import { twoProportionZ } from '../stats/two-proportion-z.js';
 import { ALL_VERSIONS, type CheckInput, type Finding } from '../types.js';
 import type { Cause } from './types.js';
 import {
+  acrossSlices,
   baselineDays,
   baselineOf,
   dimensionValues,
+  isCount,
   dimensionsIn,
   firstSeen,
   measureOf,
@@ -42,11 +44,30 @@ export const CAUSE_THRESHOLDS = {
   segmentMaxValues: 2,
   /** Share of watched events x platforms with volume findings for "everything moved together". */
   movedTogetherShare: 0.75,
+  /** A platform's or a segment's move must be at least this many standard errors from its usual level. */
+  minZ: 3,
 };
 
 /** Measures a count may exceed its exposure in: compared as rates, not proportions. */
 function isRateMeasure(measure: Measure): boolean {
   return measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'step_people';
+}
+
+/**
+ * How many standard errors the day's value sits from the usual one: a count
+ * against a Poisson error, a ratio of people against a binomial one, events
+ * per person through the rate comparison.
+ */
+function changeZ(measure: Measure, today: Ratio, usual: Ratio): number {
+  if (today.den === 0 || usual.den === 0) return 0;
+  if (isCount(measure)) {
+    const mean = usual.num / usual.den;
+    return (today.num - mean) / Math.sqrt(Math.max(mean, 1));
+  }
+  if (isRateMeasure(measure)) return usual.num > 0 || today.num > 0 ? rateComparison(today.num, today.den, usual.num, usual.den).z : 0;
+  const p = usual.num / usual.den;
+  const se = Math.sqrt((p * (1 - p)) / today.den);
+  return se > 0 ? (today.num / today.den - p) / se : 0;
 }
 
 function compare(measure: Measure, a: Ratio, b: Ratio): { z: number; pValue: number } {
@@ -83,7 +104,8 @@ export function attribute(finding: Finding, input: CheckInput, dayFindings: read
 function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
   if (finding.check === 'freshness') {
     return {
-      groupKey: `data_delay|${finding.platform ?? '*'}`,
+      // A late collector holds back every platform at once: one incident, whichever platforms it hit.
+      groupKey: 'data_delay',
       cause: {
         label: 'data_delay',
         confidence: 0.9,
@@ -104,7 +126,7 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   const expected = input.flow.events.length * input.flow.platforms.length;
   if (expected < 2 || moved.size < Math.ceil(CAUSE_THRESHOLDS.movedTogetherShare * expected)) return undefined;
   return {
-    groupKey: 'data_delay|*',
+    groupKey: 'data_delay',
     cause: {
       label: 'data_delay',
       confidence: 0.7,
@@ -208,9 +230,13 @@ function shareOfPlatform(input: CheckInput, platform: string, version: string): 
 function platformOnly(finding: Finding, input: CheckInput): Attribution | undefined {
   const platform = finding.platform;
   if (platform === null) return undefined;
-  const measure = measureOf(finding, input.flow);
-  if (!measure) return undefined;
+  const found = measureOf(finding, input.flow);
+  if (!found) return undefined;
+  const measure = acrossSlices(found);
   const days = baselineDays(input);
+  // The platform must really have moved on this measure, not by noise.
+  const z = changeZ(measure, measureOn(input, measure, input.day, all(platform)), baselineOf(input, measure, all(platform), days));
+  if (Math.abs(z) < CAUSE_THRESHOLDS.minZ) return undefined;
   const own = relativeChange(input, measure, all(platform), days);
   const others = input.flow.platforms.filter((p) => p !== platform).map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) }));
   const measured = others.filter((o) => Number.isFinite(o.change));
@@ -227,7 +253,7 @@ function platformOnly(finding: Finding, input: CheckInput): Attribution | undefi
         .join(', ')}; no single app version explains it`,
       platform,
       version: null,
-      evidence: { measure: measure.label, change: own, ...Object.fromEntries(measured.map((o) => [`change_${o.platform}`, o.change])) },
+      evidence: { measure: measure.label, change: own, z, ...Object.fromEntries(measured.map((o) => [`change_${o.platform}`, o.change])) },
     },
   };
 }
@@ -237,8 +263,10 @@ function formatSigned(change: number): string {
 }
 
 function segment(finding: Finding, input: CheckInput): Attribution | undefined {
-  const measure = measureOf(finding, input.flow);
-  if (!measure || measure.kind === 'step_people') return undefined;
+  const found = measureOf(finding, input.flow);
+  if (!found) return undefined;
+  const measure = acrossSlices(found);
+  if (measure.kind === 'step_count') return undefined;
   const days = baselineDays(input);
   const candidates: Array<{ dimension: string; values: ValueChange[] }> = [];
   for (const dimension of dimensionsIn(input)) {
@@ -247,9 +275,9 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
       const slice: Slice = { platform: finding.platform, version: ALL_VERSIONS, dimension, value };
       const today = measureOn(input, measure, input.day, slice);
       const usual = rate(baselineOf(input, measure, slice, days));
-      if (today.den === 0 || !Number.isFinite(usual)) continue;
-      // Forecast: today's exposure at the value's usual rate; actual: what happened.
-      values.push({ value, forecast: today.den * usual, actual: today.num });
+      if (!Number.isFinite(usual)) continue;
+      // Forecast: a count's usual level, or today's exposure at the value's usual rate; actual: what happened.
+      values.push({ value, forecast: isCount(measure) ? usual : today.den * usual, actual: today.num });
     }
     if (values.length >= 2) candidates.push({ dimension, values });
   }
@@ -265,6 +293,9 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
   const insideChange = inside.forecast > 0 ? inside.actual / inside.forecast - 1 : 0;
   const outsideChange = outside.forecast > 0 ? outside.actual / outside.forecast - 1 : 0;
   if (insideChange === 0 || Math.abs(outsideChange) > CAUSE_THRESHOLDS.segmentRestShare * Math.abs(insideChange)) return undefined;
+  // ... and the move must be larger than the noise of a segment that size (Poisson error of the forecast count, common practice).
+  const z = (inside.actual - inside.forecast) / Math.sqrt(Math.max(inside.forecast, 1));
+  if (Math.abs(z) < CAUSE_THRESHOLDS.minZ) return undefined;
   const values = explanation.values.map((v) => v.value).join(', ');
   return {
     groupKey: `segment|${explanation.dimension}=${values}`,
@@ -277,7 +308,16 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
       platform: finding.platform,
       version: null,
       segment: { dimension: explanation.dimension, value: values, explanatoryPower: explanation.ep, surprise: explanation.surprise },
-      evidence: { measure: measure.label, dimension: explanation.dimension, values, explanatoryPower: explanation.ep, surprise: explanation.surprise, segmentChange: insideChange, restChange: outsideChange },
+      evidence: {
+        measure: measure.label,
+        dimension: explanation.dimension,
+        values,
+        explanatoryPower: explanation.ep,
+        surprise: explanation.surprise,
+        segmentChange: insideChange,
+        restChange: outsideChange,
+        z,
+      },
     },
   };
 }
@@ -302,7 +342,8 @@ function calendar(finding: Finding, input: CheckInput): Attribution | undefined 
 }
 
 function behaviour(finding: Finding, input: CheckInput): Attribution {
-  const measure = measureOf(finding, input.flow);
+  const found = measureOf(finding, input.flow);
+  const measure = found ? acrossSlices(found) : undefined;
   const days = baselineDays(input);
   const changes = measure
     ? input.flow.platforms.map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) })).filter((c) => Number.isFinite(c.change))

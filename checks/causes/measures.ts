@@ -6,7 +6,8 @@
  */
 import { ALL_VERSIONS, type CheckInput, type Day, type Finding, type FlowDefinition } from '../types.js';
 
-export type Measure =
+/** The measures a finding can be about (see `measureOf`). */
+export type FindingMeasure =
   /** People reaching step k among those reaching step k - 1 (ordered funnel). */
   | { kind: 'step_conversion'; step: number; label: string }
   /** People completing the flow among those entering it. */
@@ -17,6 +18,30 @@ export type Measure =
   | { kind: 'event_people'; event: string; label: string }
   /** Events per person of one event. */
   | { kind: 'events_per_person'; event: string; label: string };
+
+export type Measure =
+  | FindingMeasure
+  /** People sending an event, as a count per day (den 1): compares platforms and segments without version sizes. */
+  | { kind: 'event_count'; event: string; label: string }
+  /** People sending step k's event (any order), as a count per day. */
+  | { kind: 'step_count'; step: number; label: string };
+
+/**
+ * The measure to compare platforms and segments on. A count normalised by
+ * the flow's entrants (right for versions, whose sizes differ) hides a move
+ * of everyone alike, such as a holiday; across platforms and segments the
+ * plain count is the honest one.
+ */
+export function acrossSlices(measure: Measure): Measure {
+  if (measure.kind === 'event_people') return { kind: 'event_count', event: measure.event, label: measure.label };
+  if (measure.kind === 'step_people') return { kind: 'step_count', step: measure.step, label: measure.label };
+  return measure;
+}
+
+/** Measures that are a count per day rather than a ratio of people. */
+export function isCount(measure: Measure): boolean {
+  return measure.kind === 'event_count' || measure.kind === 'step_count';
+}
 
 /** A slice of the data: a platform (or every platform), a version (or all) and a dimension value (or none). */
 export interface Slice {
@@ -39,7 +64,7 @@ export function rate(ratio: Ratio): number {
 }
 
 /** The measure a finding is about, from its subject and metric; undefined when it has none (freshness, schema). */
-export function measureOf(finding: Finding, flow: FlowDefinition): Measure | undefined {
+export function measureOf(finding: Finding, flow: FlowDefinition): FindingMeasure | undefined {
   const stepIndex = (name: string | undefined) => flow.steps.findIndex((step) => step.name === name);
   const { subject, metric } = finding;
   const isConversion = metric.includes('conversion') || metric.includes('ratio') || metric.includes('share');
@@ -111,6 +136,18 @@ export function measureOn(input: CheckInput, measure: Measure, day: Day, slice: 
       const rows = input.events.filter((r) => r.day === day && r.event === measure.event && matches(r, slice));
       return { num: sum(rows, (r) => r.events), den: sum(rows, (r) => r.people) };
     }
+    // A day without rows is a day nobody sent it: a count of 0 (a platform sending nothing at all is freshness's to report).
+    case 'event_count': {
+      const rows = input.events.filter((r) => r.day === day && r.event === measure.event && matches(r, slice));
+      return { num: sum(rows, (r) => r.people), den: 1 };
+    }
+    case 'step_count': {
+      if (slice.dimension !== '') return ZERO;
+      const rows = input.steps.filter(
+        (r) => r.day === day && r.step === measure.step && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version,
+      );
+      return { num: sum(rows, (r) => r.people), den: 1 };
+    }
   }
 }
 
@@ -124,7 +161,7 @@ export function versionsOn(input: CheckInput, platform: string, day: Day): strin
 
 /** Values of a dimension seen on a day (in the funnel for flow measures, in event counts otherwise). */
 export function dimensionValues(input: CheckInput, measure: Measure, dimension: string, day: Day): string[] {
-  const rows = measure.kind === 'event_people' || measure.kind === 'events_per_person' ? input.events : input.funnel;
+  const rows = measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'event_count' ? input.events : input.funnel;
   return [...new Set(rows.filter((r) => r.day === day && r.dimension === dimension).map((r) => r.value))].sort();
 }
 

@@ -3,7 +3,7 @@
  * sightings and the outbox are read through their own modules
  * (service/incidents/store.ts, service/delivery/outbox.ts).
  */
-import type { Measure } from '../../../checks/causes/measures.js';
+import type { FindingMeasure } from '../../../checks/causes/measures.js';
 import type { Day } from '../../../checks/types.js';
 import { quoteIdent, type Query } from '../../db/sql.js';
 
@@ -55,7 +55,7 @@ export interface SplitRow {
 }
 
 /** The measure per day and app version on one platform over [from, to], from the rollups (never raw events). */
-export function splitQuery(schema: string, o: { flow: string; lastStep: number; platform: string; measure: Measure; anyStepEntry: boolean; from: Day; to: Day }): Query {
+export function splitQuery(schema: string, o: { flow: string; lastStep: number; platform: string; measure: FindingMeasure; anyStepEntry: boolean; from: Day; to: Day }): Query {
   const s = quoteIdent(schema);
   const day = `to_char(day, 'YYYY-MM-DD') as day`;
   const m = o.measure;

@@ -8,7 +8,7 @@
 import { ALL_VERSIONS, type Day, type FlowDefinition, type Finding } from '../../../checks/types.js';
 import { addDays } from '../../../checks/time.js';
 import type { Db } from '../../incidents/store.js';
-import { measureOf, type Measure } from '../../../checks/causes/measures.js';
+import { measureOf, type FindingMeasure } from '../../../checks/causes/measures.js';
 import { splitQuery, type SplitRow } from './queries.js';
 
 /** Longest stretch of days the split covers (the newest ones of a long incident). */
@@ -42,7 +42,7 @@ export interface VersionSplit {
 }
 
 /** The measure behind a symptom, the one the cause analysis compares versions on; undefined for symptoms without one (freshness, schema). */
-export function splitMeasureOf(finding: Finding, flow: FlowDefinition): { measure: Measure; labels: VersionSplit['labels'] } | undefined {
+export function splitMeasureOf(finding: Finding, flow: FlowDefinition): { measure: FindingMeasure; labels: VersionSplit['labels'] } | undefined {
   const measure = measureOf(finding, flow);
   if (!measure) return undefined;
   const steps = flow.steps.map((step) => step.name);

@@ -1,0 +1,120 @@
+/**
+ * The whole pipeline on the demo scenario, scored against its ground truth
+ * (service/demo/ground-truth.ts): five months of generated events, rolled up
+ * and judged day by day as `plumbline demo` does, then
+ * - every injected incident yields a finding of each expected check, on the
+ *   right platform and day (plus or minus one day);
+ * - it becomes one incident with the right cause label (and version);
+ * - false findings on clean days stay at most one per flow per 30 judged days.
+ * The confusion counts are printed.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { addDays } from '../../checks/time.js';
+import type { Finding } from '../../checks/types.js';
+import { loadConfig } from '../../service/config/load.js';
+import { quoteIdent } from '../../service/db/sql.js';
+import { prepareDemo, type DemoResult } from '../../service/demo/prepare.js';
+import { groundTruth, type Incident } from '../../service/demo/scenario.js';
+import { listIncidents, latestSightings } from '../../service/incidents/store.js';
+import type { Incident as StoredIncident } from '../../service/incidents/types.js';
+import { createLogger } from '../../service/log.js';
+import { openRuntime, type Runtime } from '../../service/runtime.js';
+import { findingsQuery, type StoredFinding } from '../../service/state/summary.js';
+import { createTestSchema, type TestSchema } from '../helpers/db.js';
+
+type Judged = StoredFinding & { flow: string; day: string };
+
+function touches(incident: Incident, flow: string, platform: string | null, day: string, tolerance = 1): boolean {
+  return (
+    (incident.flow === null || incident.flow === flow) &&
+    (incident.platform === null || platform === null || incident.platform === platform) &&
+    day >= addDays(incident.firstDay, -tolerance) &&
+    day <= addDays(incident.lastDay, tolerance)
+  );
+}
+
+function explains(incident: Incident, finding: Finding & { flow: string }): boolean {
+  return touches(incident, finding.flow, finding.platform, finding.day) && [...incident.expectedChecks, ...incident.alsoAcceptable].includes(finding.check as never);
+}
+
+describe('demo scenario end to end', () => {
+  let db: TestSchema;
+  let rt: Runtime;
+  let demo: DemoResult;
+  let findings: Judged[];
+  let incidents: Array<StoredIncident & { version: string | null }>;
+
+  beforeAll(async () => {
+    db = await createTestSchema('demo');
+    const config = loadConfig('config', { env: {} });
+    config.main.warehouse.events_table = `${db.schema}.events`;
+    config.main.state.schema = `${db.schema}_state`;
+    config.main.delivery.outbox_dir = `.plumbline/test-outbox-${db.schema}`;
+    rt = await openRuntime(config, { env: { PLUMBLINE_WAREHOUSE_URL: db.url }, log: createLogger({ level: 'warn' }) });
+    demo = await prepareDemo(rt, { quiet: true, dir: `.plumbline/test-demo-${db.schema}` });
+    findings = (await rt.state.query<Judged>(findingsQuery(rt.stateSchema, demo.judgedFrom, demo.to))).rows;
+    incidents = await listIncidents(rt.state, rt.stateSchema, { flows: rt.flows.map((f) => f.id), from: demo.judgedFrom, to: demo.to });
+  }, 600_000);
+
+  afterAll(async () => {
+    await rt?.state.query(`drop schema if exists ${quoteIdent(rt.stateSchema)} cascade`);
+    await rt?.close();
+    await db?.drop();
+  });
+
+  it('finds every injected incident with each expected check, platform and day', () => {
+    const rows: string[] = [];
+    const misses: string[] = [];
+    for (const incident of groundTruth) {
+      for (const check of incident.expectedChecks) {
+        const hits = findings.filter((f) => f.check === check && touches(incident, f.flow, f.platform, f.day));
+        rows.push(`${incident.id.padEnd(28)} ${check.padEnd(10)} ${hits.length > 0 ? `found (${hits.length}, first ${hits[0]!.day})` : 'MISSED'}`);
+        if (hits.length === 0) misses.push(`${incident.id}: ${check}`);
+      }
+    }
+    console.log(`[demo end to end] detection per incident and check:\n${rows.join('\n')}`);
+    expect(misses, rows.join('\n')).toEqual([]);
+  });
+
+  it('makes one incident per injected incident with the right cause', async () => {
+    const sightings = await latestSightings(rt.state, rt.stateSchema, incidents.map((i) => i.id));
+    const rows: string[] = [];
+    const wrong: string[] = [];
+    for (const incident of groundTruth) {
+      const flows = incident.flow === null ? rt.flows.map((f) => f.id) : [incident.flow];
+      for (const flow of flows) {
+        // Incidents whose days overlap the injected one, on its platform (or any, for all-platform ones).
+        const candidates = incidents.filter((i) => i.flow === flow && touches(incident, flow, i.platform, i.since) && i.lastSeenDay >= addDays(incident.firstDay, -1));
+        const right = candidates.filter((i) => i.causeLabel === incident.expectedCause && (incident.causeVersion === undefined || i.version === incident.causeVersion));
+        const detail = candidates.map((i) => `${i.causeLabel}${i.version ? ` ${i.version}` : ''} ${i.since}..${i.lastSeenDay}: ${sightings.get(i.id)?.cause.sentence ?? ''}`);
+        rows.push(`${incident.id} (${flow}): ${right.length} right of ${candidates.length}\n    ${detail.join('\n    ')}`);
+        // Holidays touch every flow; a flow whose series did not move on them needs no incident.
+        if (incident.kind === 'holiday' && candidates.length === 0) continue;
+        if (right.length !== 1) wrong.push(`${incident.id} in ${flow}: expected one ${incident.expectedCause} incident, got ${right.length} (of ${candidates.length})`);
+      }
+    }
+    console.log(`[demo end to end] incidents per injected incident:\n${rows.join('\n')}`);
+    expect(wrong, rows.join('\n')).toEqual([]);
+  });
+
+  it('keeps false findings on clean days to at most one per flow per 30 judged days', () => {
+    const judgedDays = Math.round((Date.parse(demo.to) - Date.parse(demo.judgedFrom)) / 86_400_000) + 1;
+    const budget = Math.floor(judgedDays / 30);
+    const lines: string[] = [];
+    let over = false;
+    for (const flow of rt.flows.map((f) => f.id)) {
+      const own = findings.filter((f) => f.flow === flow);
+      const truePositives = own.filter((f) => groundTruth.some((incident) => explains(incident, f)));
+      const falsePositives = own.filter((f) => !groundTruth.some((incident) => explains(incident, f)));
+      lines.push(`${flow}: ${own.length} findings, ${truePositives.length} on injected incidents, ${falsePositives.length} false (budget ${budget} over ${judgedDays} days)`);
+      for (const f of falsePositives) lines.push(`    false: ${f.day} ${f.check} ${f.platform ?? 'all'} ${f.message}`);
+      if (falsePositives.length > budget) over = true;
+    }
+    console.log(`[demo end to end] confusion counts:\n${lines.join('\n')}`);
+    expect(over, lines.join('\n')).toBe(false);
+  });
+
+  it('lists findings from all six checks', () => {
+    expect([...new Set(findings.map((f) => f.check))].sort()).toEqual(['conversion', 'freshness', 'parity', 'schema', 'seasonal', 'volume']);
+  });
+});
