@@ -162,6 +162,8 @@ export interface CheckInput {
   /** The run's clock (ISO timestamp), passed in so checks stay pure. */
   now: string;
   timezone: string;
+  /** `delivery.hide_values`: messages must not quote parameter values seen in the data. */
+  hideValues?: boolean;
 }
 
 /** One point of the series behind a finding. */

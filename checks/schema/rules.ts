@@ -156,7 +156,7 @@ function describeOutside(scope: EventScope, versions: readonly string[], key: st
     unlisted += outside.unlisted;
     unprofiled ||= outside.unprofiled;
   }
-  const parts = [listValues([...values].sort())].filter((part) => part !== '');
+  const parts = [listValues([...values].sort(), scope.input.hideValues)].filter((part) => part !== '');
   if (unlisted > 0) parts.push(`at least ${unlisted} more not listed by the profile`);
   if (unprofiled) parts.push('some versions too varied to profile');
   return parts.join('; ');
@@ -334,7 +334,10 @@ export function driftDrafts(scope: EventScope, rules: DriftRules): Draft[] {
         return { x: fresh.reduce((sum, id) => sum + (counts?.get(id) ?? 0), 0), n: scalarEvents(day, key) };
       };
       push('new_value', key, 'values', measure, stepKey ? 'steps' : 'values', (versions, floor) => newVerdict(scope.judgeShare(versions, measure, floor)), (versions) => ({
-        values: listValues(fresh.filter((id) => sentToday(scope, versions, key, id)).map((id) => parseValueId(id).value)),
+        values: listValues(
+          fresh.filter((id) => sentToday(scope, versions, key, id)).map((id) => parseValueId(id).value),
+          scope.input.hideValues,
+        ),
       }));
     }
   }
@@ -406,7 +409,7 @@ function vanishedValues(scope: EventScope, key: string, past: ReadonlySet<string
   }
   return [...byPlace.values()].map((draft) => {
     const values = draft.details.values!.split('\u0000').sort();
-    return { ...draft, details: { values: listValues(values), expected_count: String(Math.round(draft.verdict.expected.center * draft.verdict.cell.n)) } };
+    return { ...draft, details: { values: listValues(values, scope.input.hideValues), expected_count: String(Math.round(draft.verdict.expected.center * draft.verdict.cell.n)) } };
   });
 }
 
@@ -488,7 +491,9 @@ export function dropEchoes(drafts: Draft[]): Draft[] {
 }
 
 /** Up to SHOWN_VALUES values, each cut to VALUE_LENGTH characters, and how many more. */
-export function listValues(values: readonly string[]): string {
+export function listValues(values: readonly string[], hide = false): string {
+  // With delivery.hide_values, data values are counted, never quoted.
+  if (hide) return values.length === 0 ? '' : `${values.length} value${values.length === 1 ? '' : 's'} (hidden by configuration)`;
   const shown = values.slice(0, SHOWN_VALUES).map((value) => (value.length > VALUE_LENGTH ? `${value.slice(0, VALUE_LENGTH - 1)}…` : value));
   const more = values.length - shown.length;
   return more > 0 ? `${shown.join(', ')} and ${more} more` : shown.join(', ');

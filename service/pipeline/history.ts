@@ -55,6 +55,7 @@ export function sliceInput(
   anomalous: Record<string, string[]>,
   now: string,
   timezone: string,
+  hideValues = false,
 ): CheckInput {
   const from = addDays(day, -(historyDays - 1));
   const within = <T extends { day: string }>(rows: T[]) => rows.filter((row) => row.day >= from && row.day <= day);
@@ -73,6 +74,7 @@ export function sliceInput(
     anomalous,
     now,
     timezone,
+    hideValues,
   };
 }
 

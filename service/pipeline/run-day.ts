@@ -134,7 +134,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
     const anomalous = await loadAnomalousDays(reader, rt.stateSchema, flow.id, from, days[0]!);
     for (const day of days) {
       const judge = async () => {
-        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone);
+        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
         const incidents = analyseCauses(input, result.findings);

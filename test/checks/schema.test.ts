@@ -184,6 +184,10 @@ describe('schema: drift against recent days', () => {
     const findings = run(input);
     expect(summary(findings), explain(input)).toEqual(['new_value web null screen_view.referrer note']);
     expect(findings[0]!.message).toContain('push');
+    // delivery.hide_values: the value is counted, never quoted.
+    const hidden = run({ ...input, hideValues: true });
+    expect(hidden[0]!.message).not.toContain('push');
+    expect(hidden[0]!.message).toContain('1 value (hidden by configuration)');
   });
 
   it('names the release that stopped sending a value, and leaves step values to the step counts unless asked', () => {
