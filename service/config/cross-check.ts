@@ -190,6 +190,16 @@ function checkMutes({ source, config }: Flow, { checks, today }: CrossCheckConte
 }
 
 function checkAgainstMain({ source, config }: Flow, main: Main, emit: Emit): void {
+  // A day's funnel is rolled up once, when the day is judged: journeys still inside their window then would be cut short.
+  const settle = main.config.judging?.settle_time;
+  if (settle !== undefined && config.conversion_window !== undefined && config.conversion_window > settle) {
+    emit(source, ['conversion_window'], {
+      expected: `a window no longer than judging.settle_time in ${main.source.name} (${main.source.written(['judging', 'settle_time']) ?? `${settle}s`})`,
+      found: source.written(['conversion_window']) ?? `${config.conversion_window}s`,
+      severity: 'error',
+      hint: 'the day is rolled up after the settle time; raise settle_time or shorten the window',
+    });
+  }
   const mapped = main.config.warehouse?.platforms;
   const platforms = Object.keys(mapped ?? {});
   config.platforms?.forEach((platform, index) => {

@@ -261,6 +261,13 @@ const cases: Case[] = [
     ],
   },
   {
+    name: 'a conversion window longer than the settle time',
+    changes: { [PASS]: replace('conversion_window: 30m', 'conversion_window: 3h') },
+    problems: [
+      'config/flows/monthly-pass.yaml:9:20 conversion_window: expected a window no longer than judging.settle_time in config/plumbline.yaml (2h), found 3h (the day is rolled up after the settle time; raise settle_time or shorten the window)',
+    ],
+  },
+  {
     name: 'a platform the warehouse does not map',
     changes: { [PASS]: replace('platforms: [web, android, ios]', 'platforms: [web, andriod, ios]') },
     problems: [
