@@ -185,17 +185,13 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
   const seen = firstSeen(input, platform, best.version);
   const adoption = shareOfPlatform(input, platform, best.version);
   const ownRate = rate(best.own);
-  const stopped = best.own.num === 0 && best.rest.num > 0;
-  const what = stopped ? `stopped sending what the ${measure.label} counts` : `${measure.label} ${formatRatio(measure, ownRate)}`;
-  const counts = isRateMeasure(measure)
-    ? `${formatCount(best.own.num)} over ${formatCount(best.own.den)}`
-    : `${formatCount(best.own.num)} of ${formatCount(best.own.den)} people`;
+  const what = releaseEffect(input, measure, best.own, best.rest);
   return {
     groupKey: `release|${platform}|${best.version}`,
     cause: {
       label: 'release',
       confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, restShare))),
-      sentence: `${platform} ${best.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${what}: ${counts} vs ${formatRatio(measure, rate(best.rest))} on other versions`,
+      sentence: `${platform} ${best.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${what}`,
       platform,
       version: best.version,
       evidence: {
@@ -212,6 +208,31 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
       },
     },
   };
+}
+
+/** What the version did, in words and numbers, against the other versions of its platform. */
+function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ratio): string {
+  const stopped = own.num === 0 && rest.num > 0;
+  const restRate = formatRatio(measure, rate(rest));
+  const steps = input.flow.steps.map((step) => step.name);
+  switch (measure.kind) {
+    case 'step_conversion': {
+      const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
+      const counts = `${formatCount(own.num)} of ${formatCount(own.den)} people at ${from} reached ${to}`;
+      return stopped ? `stopped sending the ${to} step: ${counts}, against ${restRate} on other versions` : `${counts} (${formatRatio(measure, rate(own))}), against ${restRate} on other versions`;
+    }
+    case 'step_people': {
+      const step = steps[measure.step]!;
+      const counts = `${formatCount(own.num)} people at ${step} for ${formatCount(own.den)} entering`;
+      return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+    }
+    case 'event_people': {
+      const counts = `${formatCount(own.num)} people sending ${measure.event} for ${formatCount(own.den)} entering`;
+      return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+    }
+    default:
+      return `${measure.label} ${formatRatio(measure, rate(own))} (${formatCount(own.num)} over ${formatCount(own.den)}), against ${restRate} on other versions`;
+  }
 }
 
 function formatRatio(measure: Measure, value: number): string {

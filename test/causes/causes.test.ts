@@ -27,7 +27,7 @@ describe('analyseCauses', () => {
     // 2000 x 0.4 = 800 android 7.4.0 people at intro, none at rider, against 80% on 7.3.0.
     expect(draft.cause.evidence).toMatchObject({ version: '7.4.0', versionNum: 0, versionDen: 800, restRate: 0.8, adoption: 0.4 });
     expect(draft.cause.sentence).toMatch(/^android 7\.4\.0 \(first seen 2026-09-16, 40\.0% of android people\) stopped sending/);
-    expect(draft.cause.sentence).toContain('0 of 800 people vs 80.0% on other versions');
+    expect(draft.cause.sentence).toContain('stopped sending the rider step: 0 of 800 people at intro reached rider, against 80.0% on other versions');
     expect(draft.fingerprint).toBe('monthly_pass|release|rider|android|7.4.0');
   });
 
