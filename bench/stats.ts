@@ -31,6 +31,7 @@ import { Worker, isMainThread, parentPort, workerData } from 'node:worker_thread
 import { seasonalHybridEsd } from '../checks/stats/hybrid-esd.js';
 import { judgeLatest } from '../checks/stats/seasonal-detector.js';
 import { stl } from '../checks/stats/stl.js';
+import { prng } from '../test/stats/support.js';
 
 const SERIES = 2000;
 const LENGTH = 365;
@@ -38,17 +39,6 @@ const REPEATS = 3;
 const CHECKED = 50;
 const ROBUST = { period: 7, sWindow: 7, robust: true } as const;
 
-/** mulberry32: small seeded PRNG so every run benchmarks the same series. */
-function prng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 function generate(): number[][] {
   const rand = prng(20240601);

@@ -63,17 +63,8 @@ export function checkInput(flow: FlowDefinition, days: Day[], rows: Partial<Pick
   };
 }
 
-/** Seeded uniform numbers in [0, 1) (mulberry32), so fixtures vary like data and never change between runs. */
-export function seeded(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+/** Seeded uniform numbers in [0, 1), so fixtures vary like data and never change between runs. */
+export { prng as seeded } from '../stats/support.js';
 
 /** How one key of one event looks on one version-day. */
 export interface KeySpec {
