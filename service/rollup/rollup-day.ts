@@ -18,9 +18,8 @@ import {
   dayBounds,
   dayStatusQuery,
   eventCountsQuery,
-  funnelQuery,
+  flowQuery,
   paramProfileQuery,
-  stepCountsQuery,
   type WarehouseMapping,
 } from '../warehouse/queries.js';
 
@@ -42,33 +41,69 @@ export interface RollupResult {
   paramRows: number;
   funnelRows: number;
   millis: number;
+  /** Wall time of each warehouse statement, measured while they ran side by side. */
+  statements: StatementTiming[];
+}
+
+export interface StatementTiming {
+  name: string;
+  millis: number;
 }
 
 /** Days of param history consulted to know which keys have too many values to profile. */
 const UNTRACKED_LOOKBACK_DAYS = 14;
 
+/** The warehouse statements of one day's rollup: counts, status, params and one per flow (funnel and step counts). */
+export interface RollupStatements {
+  counts: Query;
+  status: Query;
+  params: Query;
+  flows: Array<{ name: string; query: Query }>;
+}
+
+export function rollupStatements(ctx: Pick<RollupContext, 'mapping' | 'flows'>, lo: Date, hi: Date, untrackedKeys: string[]): RollupStatements {
+  const watched = [...new Set(ctx.flows.flatMap((flow) => flow.events))];
+  return {
+    counts: eventCountsQuery(ctx.mapping, lo, hi),
+    status: dayStatusQuery(ctx.mapping, lo, hi),
+    params: paramProfileQuery(ctx.mapping, lo, hi, watched, untrackedKeys),
+    flows: ctx.flows.map((flow) => ({ name: `flow ${flow.id}`, query: flowQuery(ctx.mapping, flow, lo, hi) })),
+  };
+}
+
+/** Keys known to have too many values to profile on `day` ("event.key"), from the state's recent param history. */
+export async function readUntrackedKeys(ctx: Pick<RollupContext, 'state' | 'stateSchema'>, day: string): Promise<string[]> {
+  const { rows } = await ctx.state.query<{ key: string }>(untrackedKeysQuery(ctx.stateSchema, day, UNTRACKED_LOOKBACK_DAYS, LOW_CARDINALITY));
+  return rows.map((row) => row.key);
+}
+
 /**
  * Rolls up business day `day` from the warehouse into the state schema: event
- * counts, parameter profiles, every flow's funnel and the day's status. The
- * warehouse statements run side by side on separate connections; the state is
- * replaced in one transaction, so a rerun of a day replaces it exactly.
+ * counts, parameter profiles, every flow's funnel and step counts, and the
+ * day's status. The warehouse statements run side by side on separate
+ * connections; the state is replaced in one transaction, so a rerun of a day
+ * replaces it exactly.
  */
 export async function rollupDay(ctx: RollupContext, day: string): Promise<RollupResult> {
   const started = performance.now();
   const { rows: boundRows } = await ctx.warehouse.query<{ lo: Date; hi: Date }>(dayBounds(day, ctx.timezone));
   const { lo, hi } = boundRows[0]!;
-  const { rows: untracked } = await ctx.state.query<{ key: string }>(
-    untrackedKeysQuery(ctx.stateSchema, day, UNTRACKED_LOOKBACK_DAYS, LOW_CARDINALITY),
-  );
-  const watched = [...new Set(ctx.flows.flatMap((flow) => flow.events))];
+  const statements = rollupStatements(ctx, lo, hi, await readUntrackedKeys(ctx, day));
+  const timings: StatementTiming[] = [];
+  const read = async <Row extends pg.QueryResultRow>(name: string, query: Query): Promise<Row[]> => {
+    const { rows, millis } = await readWarehouse<Row>(ctx, query);
+    timings.push({ name, millis });
+    return rows;
+  };
 
-  const [counts, status, params, funnels, stepCounts] = await Promise.all([
-    readWarehouse<CountRow>(ctx, eventCountsQuery(ctx.mapping, lo, hi)),
-    readWarehouse<StatusRow>(ctx, dayStatusQuery(ctx.mapping, lo, hi)),
-    readWarehouse<ParamRow>(ctx, paramProfileQuery(ctx.mapping, lo, hi, watched, untracked.map((row) => row.key))),
-    Promise.all(ctx.flows.map((flow) => readWarehouse<FunnelRow>(ctx, funnelQuery(ctx.mapping, flow, lo, hi)))),
-    Promise.all(ctx.flows.map((flow) => readWarehouse<StepCountRow>(ctx, stepCountsQuery(ctx.mapping, flow, lo, hi)))),
+  const [counts, status, params, flowResults] = await Promise.all([
+    read<CountRow>('counts', statements.counts),
+    read<StatusRow>('status', statements.status),
+    read<ParamRow>('params', statements.params),
+    Promise.all(statements.flows.map((flow) => read<FlowRow>(flow.name, flow.query))),
   ]);
+  const funnels = flowResults.map((rows) => rows.filter((row): row is FunnelRow => row.kind === 'funnel'));
+  const stepCounts = flowResults.map((rows) => rows.filter((row): row is StepCountRow => row.kind === 'step'));
 
   const hours = Math.round((hi.getTime() - lo.getTime()) / 3_600_000);
   const statusRows = summariseStatus(status, hours);
@@ -125,19 +160,29 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
     paramRows: paramRows.length,
     funnelRows: funnelRows.length,
     millis: performance.now() - started,
+    statements: timings,
   };
 }
 
-/** Runs one read-only statement with the rollup's memory setting. */
-async function readWarehouse<Row extends pg.QueryResultRow>(ctx: RollupContext, query: Query): Promise<Row[]> {
+/**
+ * Runs one read-only statement with the rollup's session settings on a
+ * connection of its own; `millis` is the statement's wall time, settings
+ * excluded.
+ */
+export async function readWarehouse<Row extends pg.QueryResultRow>(
+  ctx: Pick<RollupContext, 'warehouse' | 'workMem'>,
+  query: Query,
+): Promise<{ rows: Row[]; millis: number }> {
   const client = await ctx.warehouse.connect();
   try {
     await client.query('begin read only');
     // JIT compilation of these wide expressions costs seconds and saves nothing on one pass over a day.
     await client.query({ text: `select set_config('work_mem', $1, true), set_config('jit', 'off', true)`, values: [ctx.workMem] });
+    const started = performance.now();
     const { rows } = await client.query<Row>(query);
+    const millis = performance.now() - started;
     await client.query('commit');
-    return rows;
+    return { rows, millis };
   } catch (error) {
     await client.query('rollback').catch(() => undefined);
     throw error;
@@ -175,6 +220,7 @@ interface ParamRow {
   fractional: string;
 }
 interface StepCountRow {
+  kind: 'step';
   platform: string;
   version: string;
   step: number;
@@ -182,6 +228,7 @@ interface StepCountRow {
   people: string;
 }
 interface FunnelRow {
+  kind: 'funnel';
   platform: string;
   version: string;
   dimension: string;
@@ -192,6 +239,8 @@ interface FunnelRow {
   seconds_p90: Array<number | null>;
   timed: string[];
 }
+
+type FlowRow = FunnelRow | StepCountRow;
 
 function summariseStatus(rows: StatusRow[], hours: number) {
   const byPlatform = new Map<string, { platform: string; events: number; newestAt: string | null; hourly: number[] }>();

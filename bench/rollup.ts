@@ -1,0 +1,229 @@
+/**
+ * Benchmark of the daily rollup (`rollupDay`) against the minimal grouped pass
+ * over the same day, on the demo scenario's weekday 2026-10-14 at about 1M
+ * events (see rollup-data.ts), in the same run:
+ *
+ * - `rollup_vs_group_ratio`: wall time of the whole rollup of the day (every
+ *   warehouse statement, the untracked-keys lookup and the state write) over
+ *   `select count(*) from (select distinct event, platform, version, person
+ *   ...)` for the day, on the table with 30 days of history. Target: 1.5.
+ * - `history_growth_ratio`: the rollup on the table with 365 days of history
+ *   over the same on 30 days. Target: 1.2.
+ *
+ * Both sides run through the same function (`readWarehouse`), so with the same
+ * session settings: `work_mem` from config/plumbline.yaml, JIT off, the
+ * server's own parallel-query settings. After a warm-up round, rounds repeat
+ * with the order of the measurements rotated, and each figure is the median.
+ * The rollup's warehouse statements run side by side on separate connections
+ * (as in production, using both cores); the same statements are also timed
+ * one at a time, and their sum is reported beside the side-by-side wall time.
+ */
+import pg from 'pg';
+import { toFlowDefinition, toWarehouseMapping } from '../service/config/definitions.js';
+import { loadConfig } from '../service/config/load.js';
+import { migrate } from '../service/db/migrate.js';
+import { quoteIdent, quoteQualified, type Query } from '../service/db/sql.js';
+import { DEMO_TIMEZONE } from '../service/demo/scenario.js';
+import { readUntrackedKeys, readWarehouse, rollupDay, rollupStatements, type RollupContext } from '../service/rollup/rollup-day.js';
+import { dayBounds, type WarehouseMapping } from '../service/warehouse/queries.js';
+import { BENCH_DAY, DAY_SCALE, HISTORY_DAYS, HISTORY_SCALE, dropBenchTables, prepareBenchTables, type HistoryKey } from './rollup-data.js';
+
+export type Figures = Record<string, number | string>;
+
+export interface RollupBenchOptions {
+  url: string;
+  rounds: number;
+  /** Keep the generated tables for a later `reuse` run. */
+  keep: boolean;
+  reuse: boolean;
+  log: (line: string) => void;
+}
+
+const STATE_SCHEMA = 'bench_rollup_state';
+/** Serialises bench runs on one server: they share the bench schemas. */
+const LOCK_KEY = 'plumbline.bench.rollup';
+
+/** The minimal grouped pass: one distinct grouping of the day at the (event, platform, version, person) grain, raw columns. */
+export function groupPassQuery(mapping: WarehouseMapping, lo: Date, hi: Date): Query {
+  const col = (role: keyof WarehouseMapping['columns']) => quoteIdent(mapping.columns[role]);
+  return {
+    text: `select count(*) from (
+  select distinct ${col('name')}, ${col('platform')}, ${col('version')}, coalesce(${col('user')}, ${col('device')})
+  from ${quoteQualified(mapping.table)}
+  where ${col('time')} >= $1 and ${col('time')} < $2
+) s`,
+    values: [lo, hi],
+  };
+}
+
+export async function benchRollup(options: RollupBenchOptions): Promise<Figures> {
+  const pool = new pg.Pool({ connectionString: options.url, max: 10, application_name: 'plumbline-bench' });
+  const lock = await pool.connect();
+  try {
+    const { rows: locked } = await lock.query<{ ok: boolean }>({ text: 'select pg_try_advisory_lock(hashtext($1)) as ok', values: [LOCK_KEY] });
+    if (!locked[0]?.ok) throw new Error('another plumbline bench is running against this server');
+    return await measure(pool, options);
+  } finally {
+    if (!options.keep) {
+      await dropBenchTables(pool);
+      await pool.query(`drop schema if exists ${quoteIdent(STATE_SCHEMA)} cascade`);
+    }
+    lock.release();
+    await pool.end();
+  }
+}
+
+async function measure(pool: pg.Pool, options: RollupBenchOptions): Promise<Figures> {
+  const data = await prepareBenchTables(pool, { reuse: options.reuse, log: options.log });
+  await pool.query(`drop schema if exists ${quoteIdent(STATE_SCHEMA)} cascade`);
+  await migrate(pool, STATE_SCHEMA);
+
+  const config = loadConfig('config');
+  const flows = config.flows.map((flow) => toFlowDefinition(flow.config));
+  const workMem = config.main.warehouse.work_mem;
+  const contexts = {} as Record<HistoryKey, RollupContext>;
+  for (const key of ['h30', 'h365'] as const) {
+    contexts[key] = {
+      warehouse: pool,
+      state: pool,
+      stateSchema: STATE_SCHEMA,
+      mapping: { ...toWarehouseMapping(config.main), table: data.tables[key] },
+      timezone: config.main.timezone,
+      flows,
+      workMem,
+    };
+  }
+  const { rows: bounds } = await pool.query<{ lo: Date; hi: Date }>(dayBounds(BENCH_DAY, DEMO_TIMEZONE));
+  const { lo, hi } = bounds[0]!;
+  const several = await peopleWithSeveralVersions(pool, contexts.h30.mapping, lo, hi);
+
+  const samples = new Map<string, number[]>();
+  const record = (name: string, millis: number): void => {
+    samples.set(name, [...(samples.get(name) ?? []), millis]);
+  };
+  const groupPass = async (key: HistoryKey) => {
+    const { millis } = await readWarehouse(contexts[key], groupPassQuery(contexts[key].mapping, lo, hi));
+    return millis;
+  };
+  const rollup = async (key: HistoryKey) => {
+    const t0 = performance.now();
+    const result = await rollupDay(contexts[key], BENCH_DAY);
+    const wall = performance.now() - t0;
+    return { wall, statements: result.statements };
+  };
+  // The rollup's warehouse statements one after another, each alone on the server.
+  const oneByOne = async () => {
+    const ctx = contexts.h30;
+    const statements = rollupStatements(ctx, lo, hi, await readUntrackedKeys(ctx, BENCH_DAY));
+    const named = [
+      { name: 'counts', query: statements.counts },
+      { name: 'status', query: statements.status },
+      { name: 'params', query: statements.params },
+      ...statements.flows,
+    ];
+    const times: Record<string, number> = {};
+    for (const { name, query } of named) times[name] = (await readWarehouse(ctx, query)).millis;
+    return times;
+  };
+
+  const tasks: Array<{ label: string; run: () => Promise<void> }> = [
+    { label: 'group pass, 30 days', run: async () => record('group_30', await groupPass('h30')) },
+    { label: 'group pass, 365 days', run: async () => record('group_365', await groupPass('h365')) },
+    {
+      label: 'rollup, 30 days',
+      run: async () => {
+        const { wall, statements } = await rollup('h30');
+        record('rollup_30', wall);
+        record('concurrent_sum_30', statements.reduce((sum, s) => sum + s.millis, 0));
+        record('concurrent_longest_30', Math.max(...statements.map((s) => s.millis)));
+      },
+    },
+    { label: 'rollup, 365 days', run: async () => record('rollup_365', (await rollup('h365')).wall) },
+    {
+      label: 'statements one by one, 30 days',
+      run: async () => {
+        const times = await oneByOne();
+        record('alone_sum_30', Object.values(times).reduce((a, b) => a + b, 0));
+        for (const [name, millis] of Object.entries(times)) record(`alone ${name}`, millis);
+      },
+    },
+  ];
+  options.log(`rollup: warm-up round, then ${options.rounds} rounds (order rotated each round)`);
+  for (const task of tasks) await task.run();
+  samples.clear();
+  for (let round = 0; round < options.rounds; round++) {
+    for (let i = 0; i < tasks.length; i++) {
+      const task = tasks[(round + i) % tasks.length]!;
+      await task.run();
+    }
+    options.log(`rollup: round ${round + 1}/${options.rounds}: group ${ms(last(samples, 'group_30'))}, rollup ${ms(last(samples, 'rollup_30'))}, rollup 365 ${ms(last(samples, 'rollup_365'))}`);
+  }
+
+  const med = (name: string) => median(samples.get(name) ?? []);
+  const { rows: settings } = await pool.query<{ parallel: string; version: string }>(
+    `select current_setting('max_parallel_workers_per_gather') as parallel, current_setting('server_version') as version`,
+  );
+  const statementCount = 3 + flows.length;
+  const figures: Figures = {
+    rollup_vs_group_ratio: round2(med('rollup_30') / med('group_30')),
+    history_growth_ratio: round2(med('rollup_365') / med('rollup_30')),
+    group_pass_ms: Math.round(med('group_30')),
+    rollup_ms: Math.round(med('rollup_30')),
+    group_pass_365_ms: Math.round(med('group_365')),
+    rollup_365_ms: Math.round(med('rollup_365')),
+    rollup_statements_side_by_side_sum_ms: Math.round(med('concurrent_sum_30')),
+    rollup_statements_side_by_side_longest_ms: Math.round(med('concurrent_longest_30')),
+    rollup_statements_one_by_one_sum_ms: Math.round(med('alone_sum_30')),
+    rollup_one_by_one_vs_group_ratio: round2(med('alone_sum_30') / med('group_30')),
+  };
+  for (const name of [...samples.keys()].filter((key) => key.startsWith('alone '))) {
+    figures[`statement_${name.slice('alone '.length).replaceAll(' ', '_')}_ms`] = Math.round(med(name));
+  }
+  Object.assign(figures, {
+    day_events: data.dayEvents,
+    table_rows_30_days: data.rows.h30,
+    table_rows_365_days: data.rows.h365,
+    people_with_several_versions: several,
+    rounds: options.rounds,
+    rollup_statements: `${statementCount} side by side on separate connections (counts, status, params, one per flow)`,
+    settings: `work_mem ${workMem} (config), jit off, max_parallel_workers_per_gather ${settings[0]?.parallel} (server), PostgreSQL ${settings[0]?.version}`,
+    data: `demo scenario ${BENCH_DAY} at scale ${DAY_SCALE}; history ${HISTORY_DAYS.h30} or ${HISTORY_DAYS.h365} days at scale ${HISTORY_SCALE}${data.reused ? ' (reused)' : `, built in ${(data.buildMillis / 1000).toFixed(0)} s`}`,
+  });
+  return figures;
+}
+
+/**
+ * People who sent one event from several app versions on the day: the rollup
+ * reads the day a second time only for them, so this says which case was timed.
+ */
+async function peopleWithSeveralVersions(pool: pg.Pool, mapping: WarehouseMapping, lo: Date, hi: Date): Promise<number> {
+  const col = (role: keyof WarehouseMapping['columns']) => quoteIdent(mapping.columns[role]);
+  const { rows } = await pool.query<{ n: string }>({
+    text: `select count(*) as n from (
+      select 1 from ${quoteQualified(mapping.table)} where ${col('time')} >= $1 and ${col('time')} < $2
+      group by ${col('name')}, ${col('platform')}, coalesce(${col('user')}, ${col('device')})
+      having min(coalesce(${col('version')}, '')) <> max(coalesce(${col('version')}, ''))
+    ) s`,
+    values: [lo, hi],
+  });
+  return Number(rows[0]!.n);
+}
+
+function median(values: number[]): number {
+  if (values.length === 0) return Number.NaN;
+  const sorted = [...values].sort((a, b) => a - b);
+  const mid = Math.floor(sorted.length / 2);
+  return sorted.length % 2 ? sorted[mid]! : (sorted[mid - 1]! + sorted[mid]!) / 2;
+}
+
+function last(samples: Map<string, number[]>, name: string): number {
+  return samples.get(name)?.at(-1) ?? Number.NaN;
+}
+
+function ms(value: number): string {
+  return `${Math.round(value)} ms`;
+}
+
+function round2(value: number): number {
+  return Math.round(value * 100) / 100;
+}

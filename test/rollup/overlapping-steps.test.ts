@@ -1,0 +1,128 @@
+/**
+ * Property test for flows whose steps can match the same event (a step on
+ * any `screen_view`, a later one on one screen): the flow statement then
+ * repeats each row once per matching step instead of using one CASE. Funnel
+ * and step counts are compared with the brute-force references in
+ * test/helpers/reference.ts, as in funnel-matching.test.ts.
+ */
+import fc from 'fast-check';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { FlowDefinition } from '../../checks/types.js';
+import { quoteIdent } from '../../service/db/sql.js';
+import { dayBounds, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
+import { createTestSchema, type TestSchema } from '../helpers/db.js';
+import { byteOrder, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
+import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+
+const DAY = '2026-03-10';
+const TZ = 'America/New_York';
+
+function flow(entry: FlowDefinition['entry']): FlowDefinition {
+  return {
+    id: 'browse',
+    owner: 'team',
+    steps: [
+      { name: 'any_screen', event: 'screen_view', where: {} },
+      { name: 'zone', event: 'screen_view', where: { screen: 'zone' } },
+      { name: 'zone_again', event: 'screen_view', where: { screen: ['zone', 'home'] } },
+      { name: 'pay', event: 'tap_pay', where: {} },
+    ],
+    conversionWindowSeconds: 600,
+    stepTimeCapSeconds: 240,
+    entry,
+    platforms: ['web', 'android', 'ios'],
+    events: ['screen_view', 'tap_pay'],
+    contracts: {},
+  };
+}
+
+const journeyArb = fc.record({
+  user: fc.option(fc.constantFrom('u1', 'u2'), { nil: null }),
+  device: fc.option(fc.constantFrom('d1', 'd2', 'd3'), { nil: null }),
+  platform: fc.constantFrom('web', 'Android', 'iOS'),
+  version: fc.option(fc.constantFrom('1.0', '2.0'), { nil: null }),
+  country: fc.constantFrom('US', 'CA'),
+  startMinute: fc.integer({ min: -20, max: 24 * 60 + 10 }),
+  events: fc.array(
+    fc.record({
+      name: fc.constantFrom('screen_view', 'screen_view', 'tap_pay'),
+      screen: fc.constantFrom('zone', 'home', 'intro'),
+      gapMinutes: fc.integer({ min: -1, max: 5 }),
+    }),
+    { minLength: 1, maxLength: 6 },
+  ),
+});
+
+function toRows(journeys: Array<typeof journeyArb extends fc.Arbitrary<infer T> ? T : never>, lo: Date): RawEvent[] {
+  return journeys.flatMap((journey) => {
+    let at = lo.getTime() + journey.startMinute * 60_000;
+    return journey.events.map((event) => {
+      at += event.gapMinutes * 60_000;
+      return {
+        at: new Date(at),
+        name: event.name,
+        user: journey.user,
+        device: journey.device,
+        platform: journey.platform,
+        version: journey.version,
+        props: event.name === 'screen_view' ? { screen: event.screen } : {},
+        country: journey.country,
+        channel: 'direct',
+      };
+    });
+  });
+}
+
+describe('flows with overlapping steps (SQL vs brute-force reference)', () => {
+  let db: TestSchema;
+  let lo: Date;
+  let hi: Date;
+  const mapping = () => testMapping(db.schema);
+
+  beforeAll(async () => {
+    db = await createTestSchema('overlap');
+    await createEventsTable(db.pool, db.schema);
+    const { rows } = await db.pool.query<{ lo: Date; hi: Date }>(dayBounds(DAY, TZ));
+    ({ lo, hi } = rows[0]!);
+  });
+  afterAll(async () => db.drop());
+
+  for (const entry of ['first_step_only', 'any_step'] as const) {
+    it(`funnel and step counts agree with the reference (entry: ${entry})`, async () => {
+      const definition = flow(entry);
+      await fc.assert(
+        fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 8 }), async (journeys) => {
+          const rows = toRows(journeys, lo);
+          await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
+          await insertEvents(db.pool, db.schema, rows);
+
+          const { rows: funnel } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
+          const expectedFunnel = referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi);
+          const funnelKey = (row: { platform: string; version: string; dimension: string; value: string }) =>
+            [row.platform, row.version, row.dimension, row.value].join('|');
+          const actualFunnel = funnel
+            .map((row) => ({
+              key: funnelKey(row as never),
+              entered: (row.entered as string[]).map(Number),
+              reached: (row.reached as string[]).map(Number),
+              timed: (row.timed as string[]).map(Number),
+            }))
+            .sort((a, b) => byteOrder(a.key, b.key));
+          expect(actualFunnel).toEqual(
+            expectedFunnel
+              .map((row) => ({ key: funnelKey(row), entered: row.entered, reached: row.reached, timed: row.timed }))
+              .sort((a, b) => byteOrder(a.key, b.key)),
+          );
+
+          const { rows: steps } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
+          const stepKey = (row: { platform: string; version: string; step: number }) => [row.platform, row.version, row.step].join('|');
+          const actualSteps = steps
+            .map((row) => ({ platform: row.platform as string, version: row.version as string, step: Number(row.step), events: Number(row.events), people: Number(row.people) }))
+            .sort((a, b) => byteOrder(stepKey(a), stepKey(b)));
+          expect(actualSteps).toEqual(referenceStepCounts(rows, definition, mapping().platforms, lo, hi).sort((a, b) => byteOrder(stepKey(a), stepKey(b))));
+        }),
+        { numRuns: 40, seed: 20261204 },
+      );
+    });
+  }
+});
