@@ -10,6 +10,7 @@ import type { FlowDefinition } from '../../checks/types.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { dayBounds, eventCountsQuery, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
+import { expectFunnelRows, expectStepRows } from '../helpers/compare.js';
 import { byteOrder, referenceCounts, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
 import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
 
@@ -87,14 +88,6 @@ function toRows(journeys: Journey[], lo: Date): RawEvent[] {
   return rows.reverse();
 }
 
-function expectSameSeconds(actual: number | null | undefined, expected: number | null | undefined): void {
-  if (expected === null || expected === undefined) expect(actual ?? null).toBeNull();
-  else expect(actual).toBeCloseTo(expected, 6);
-}
-
-const sortKey = (row: { platform: string; version: string; dimension: string; value: string }) =>
-  [row.platform, row.version, row.dimension, row.value].join('|');
-
 describe('funnel matching (SQL vs brute-force reference)', () => {
   let db: TestSchema;
   let lo: Date;
@@ -118,32 +111,7 @@ describe('funnel matching (SQL vs brute-force reference)', () => {
           await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
           await insertEvents(db.pool, db.schema, rows);
           const { rows: sql } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
-          const expected = referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi);
-          const actual = sql.map((row) => ({
-            platform: row.platform as string,
-            version: row.version as string,
-            dimension: row.dimension as string,
-            value: row.value as string,
-            entered: (row.entered as string[]).map(Number),
-            reached: (row.reached as string[]).map(Number),
-            secondsMedian: row.seconds_median as Array<number | null>,
-            secondsP90: row.seconds_p90 as Array<number | null>,
-            timed: (row.timed as string[]).map(Number),
-          }));
-          const order = (a: { platform: string }, b: { platform: string }) => byteOrder(sortKey(a as never), sortKey(b as never));
-          actual.sort(order);
-          expected.sort(order);
-          expect(actual.map(sortKey)).toEqual(expected.map(sortKey));
-          actual.forEach((row, i) => {
-            const ref = expected[i]!;
-            expect({ entered: row.entered, reached: row.reached, timed: row.timed }).toEqual({
-              entered: ref.entered,
-              reached: ref.reached,
-              timed: ref.timed,
-            });
-            row.secondsMedian.forEach((v, k) => expectSameSeconds(v, ref.secondsMedian[k]));
-            row.secondsP90.forEach((v, k) => expectSameSeconds(v, ref.secondsP90[k]));
-          });
+          expectFunnelRows(sql, referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi), { timing: true });
         }),
         { numRuns: 60, seed: 20261201 },
       );
@@ -179,12 +147,7 @@ describe('funnel matching (SQL vs brute-force reference)', () => {
         await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
         await insertEvents(db.pool, db.schema, rows);
         const { rows: sql } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
-        const actual = sql.map((row) => ({ platform: row.platform as string, version: row.version as string, step: Number(row.step), events: Number(row.events), people: Number(row.people) }));
-        const expected = referenceStepCounts(rows, definition, mapping().platforms, lo, hi);
-        const key = (row: { platform: string; version: string; step: number }) => [row.platform, row.version, row.step].join('|');
-        actual.sort((a, b) => byteOrder(key(a), key(b)));
-        expected.sort((a, b) => byteOrder(key(a), key(b)));
-        expect(actual).toEqual(expected);
+        expectStepRows(sql, referenceStepCounts(rows, definition, mapping().platforms, lo, hi));
       }),
       { numRuns: 40, seed: 20261203 },
     );

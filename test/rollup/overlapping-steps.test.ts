@@ -6,12 +6,13 @@
  * test/helpers/reference.ts, as in funnel-matching.test.ts.
  */
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { dayBounds, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { byteOrder, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
+import { expectFunnelRows, expectStepRows } from '../helpers/compare.js';
+import { referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
 import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
 
 const DAY = '2026-03-10';
@@ -97,29 +98,9 @@ describe('flows with overlapping steps (SQL vs brute-force reference)', () => {
           await insertEvents(db.pool, db.schema, rows);
 
           const { rows: funnel } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
-          const expectedFunnel = referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi);
-          const funnelKey = (row: { platform: string; version: string; dimension: string; value: string }) =>
-            [row.platform, row.version, row.dimension, row.value].join('|');
-          const actualFunnel = funnel
-            .map((row) => ({
-              key: funnelKey(row as never),
-              entered: (row.entered as string[]).map(Number),
-              reached: (row.reached as string[]).map(Number),
-              timed: (row.timed as string[]).map(Number),
-            }))
-            .sort((a, b) => byteOrder(a.key, b.key));
-          expect(actualFunnel).toEqual(
-            expectedFunnel
-              .map((row) => ({ key: funnelKey(row), entered: row.entered, reached: row.reached, timed: row.timed }))
-              .sort((a, b) => byteOrder(a.key, b.key)),
-          );
-
+          expectFunnelRows(funnel, referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi), { timing: false });
           const { rows: steps } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
-          const stepKey = (row: { platform: string; version: string; step: number }) => [row.platform, row.version, row.step].join('|');
-          const actualSteps = steps
-            .map((row) => ({ platform: row.platform as string, version: row.version as string, step: Number(row.step), events: Number(row.events), people: Number(row.people) }))
-            .sort((a, b) => byteOrder(stepKey(a), stepKey(b)));
-          expect(actualSteps).toEqual(referenceStepCounts(rows, definition, mapping().platforms, lo, hi).sort((a, b) => byteOrder(stepKey(a), stepKey(b))));
+          expectStepRows(steps, referenceStepCounts(rows, definition, mapping().platforms, lo, hi));
         }),
         { numRuns: 40, seed: 20261204 },
       );
