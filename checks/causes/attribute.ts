@@ -95,6 +95,9 @@ export function attribute(finding: Finding, input: CheckInput, dayFindings: read
     dataDelay(finding, input, dayFindings) ??
     release(finding, input) ??
     platformOnly(finding, input) ??
+    // A declared low day that dropped (or high day that rose) is explained by the calendar: drilling into
+    // segments would only find who the holiday affects. Only a release or a lone platform overrides it.
+    (announced(finding, input) ? calendar(finding, input) : undefined) ??
     segment(finding, input) ??
     calendar(finding, input) ??
     behaviour(finding, input)
@@ -341,6 +344,10 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
       },
     },
   };
+}
+
+function announced(finding: Finding, input: CheckInput): boolean {
+  return input.calendar.some((entry) => entry.day === input.day && (entry.expect === 'low' ? finding.direction === 'down' : finding.direction === 'up'));
 }
 
 function calendar(finding: Finding, input: CheckInput): Attribution | undefined {

@@ -62,6 +62,18 @@ describe('analyseCauses', () => {
     expect(draft.severity).toBe('note');
   });
 
+  it('prefers the calendar to a segment on a declared day that moved as announced', () => {
+    // A national holiday hits one country's riders: the drill-down would name the country, the calendar already does.
+    const breakage = ({ country }: { country: string }) => (country === 'US' ? { volume: 0.4 } : {});
+    const volume = finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_view', event: 'screen_view' }, platform: 'web' });
+    const declared = buildInput({ breakage, calendar: [{ day: DAY, note: 'Thanksgiving', expect: 'low' }] });
+    expect(onlyDraft(analyseCauses(declared, [volume])).cause.label).toBe('calendar');
+    // The same move on an ordinary day is the segment's.
+    const ordinary = onlyDraft(analyseCauses(buildInput({ breakage }), [volume]));
+    expect(ordinary.cause.label).toBe('segment');
+    expect(ordinary.cause.segment?.value).toBe('US');
+  });
+
   it('calls an undeclared move of every event on every platform a data delay, and freshness findings too', () => {
     const input = buildInput({ breakage: () => ({ volume: 0.5 }) });
     const volume = (platform: string, event: string) =>
