@@ -8,7 +8,7 @@
  * postgres://postgres@127.0.0.1:5432/test when it answers, else an embedded
  * server started for the run. The output says which.
  *
- *   npm run bench -- [--json] [--only rollup,stats] [--rounds 5] [--keep] [--reuse]
+ *   npm run bench -- [--json] [--only rollup,stats,backtest] [--rounds 5] [--keep] [--reuse]
  *
  * `--keep` leaves the rollup's generated tables (schemas bench_rollup_*) in
  * place and `--reuse` uses them instead of generating them again: for
@@ -17,6 +17,7 @@
 import { parseArgs } from 'node:util';
 import pg from 'pg';
 import { startEmbeddedPostgres, type EmbeddedServer } from '../service/db/embedded.js';
+import { benchBacktest } from './backtest.js';
 import { benchRollup, type Figures } from './rollup.js';
 import { benchStats } from './stats.js';
 
@@ -40,6 +41,7 @@ const SECTIONS: Section[] = [
     run: async (env) => benchRollup({ url: await env.database(), rounds: env.rounds, keep: env.keep, reuse: env.reuse, log: env.log }),
   },
   { name: 'stats', run: async () => benchStats() },
+  { name: 'backtest', run: async (env) => benchBacktest({ url: await env.database(), rounds: Math.min(env.rounds, 3), log: env.log }) },
 ];
 
 const LOCAL_URL = 'postgres://postgres@127.0.0.1:5432/test';

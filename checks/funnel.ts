@@ -4,8 +4,9 @@
  * trials of each on one platform, from the platform totals (version '*', no
  * dimension).
  */
+import { platformTotals } from './rows.js';
 import { dayEnd } from './time.js';
-import { ALL_VERSIONS, type CheckInput, type Day, type FlowDefinition } from './types.js';
+import type { CheckInput, Day, FlowDefinition } from './types.js';
 
 export interface Transition {
   /** Series id part: `zone->rider`, or `intro->done` for end to end. */
@@ -49,17 +50,26 @@ export type FunnelTotals = Map<Day, { entered: number[]; reached: number[] }>;
  * Funnel totals per day over one or more platforms: entered and reached per
  * step, summed over the platforms (missing step rows count 0).
  */
+const totalsCache = new WeakMap<CheckInput, Map<string, FunnelTotals>>();
+
 export function funnelTotals(input: CheckInput, platforms: readonly string[]): FunnelTotals {
+  // Several checks ask for the same platforms' totals of the same input.
+  const key = [...platforms].sort().join('|');
+  let cached = totalsCache.get(input);
+  if (!cached) totalsCache.set(input, (cached = new Map()));
+  const hit = cached.get(key);
+  if (hit) return hit;
   const steps = input.flow.steps.length;
   const wanted = new Set(platforms);
   const byDay: FunnelTotals = new Map();
-  for (const row of input.funnel) {
-    if (!wanted.has(row.platform) || row.version !== ALL_VERSIONS || row.dimension !== '' || row.step >= steps) continue;
+  for (const row of platformTotals(input).funnel) {
+    if (!wanted.has(row.platform) || row.step >= steps) continue;
     let day = byDay.get(row.day);
     if (!day) byDay.set(row.day, (day = { entered: new Array<number>(steps).fill(0), reached: new Array<number>(steps).fill(0) }));
     day.entered[row.step]! += Number(row.entered);
     day.reached[row.step]! += Number(row.reached);
   }
+  cached.set(key, byDay);
   return byDay;
 }
 

@@ -4,6 +4,7 @@
  * same question of every slice: "was it one version? one platform? one
  * country?". Pure: reads only the CheckInput rows.
  */
+import { rowsByDay } from '../rows.js';
 import { ALL_VERSIONS, type CheckInput, type Day, type Finding, type FlowDefinition } from '../types.js';
 
 /** The measures a finding can be about (see `measureOf`). */
@@ -96,13 +97,18 @@ function matches(row: { platform: string; version: string; dimension: string; va
 /** People entering the flow in a slice on a day: the denominator that sizes a version or a segment. */
 function entrants(input: CheckInput, day: Day, slice: Slice): number {
   if (slice.dimension !== '') {
-    return sum(input.funnel.filter((r) => r.day === day && r.step === 0 && matches(r, slice)), (r) => r.reached);
+    return sum(funnelOn(input, day).filter((r) => r.step === 0 && matches(r, slice)), (r) => r.reached);
   }
   return sum(
-    input.steps.filter((r) => r.day === day && r.step === 0 && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version),
+    stepsOn(input, day).filter((r) => r.step === 0 && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version),
     (r) => r.people,
   );
 }
+
+const NONE: never[] = [];
+const funnelOn = (input: CheckInput, day: Day) => rowsByDay(input).funnel.get(day) ?? NONE;
+const stepsOn = (input: CheckInput, day: Day) => rowsByDay(input).steps.get(day) ?? NONE;
+const eventsOn = (input: CheckInput, day: Day) => rowsByDay(input).events.get(day) ?? NONE;
 
 function sum<T>(rows: readonly T[], value: (row: T) => number): number {
   let total = 0;
@@ -114,37 +120,37 @@ function sum<T>(rows: readonly T[], value: (row: T) => number): number {
 export function measureOn(input: CheckInput, measure: Measure, day: Day, slice: Slice): Ratio {
   switch (measure.kind) {
     case 'step_conversion': {
-      const rows = input.funnel.filter((r) => r.day === day && matches(r, slice));
+      const rows = funnelOn(input, day).filter((r) => matches(r, slice));
       const reached = sum(rows.filter((r) => r.step === measure.step), (r) => r.reached - (input.flow.entry === 'any_step' ? r.entered : 0));
       return { num: reached, den: sum(rows.filter((r) => r.step === measure.step - 1), (r) => r.reached) };
     }
     case 'flow_conversion': {
       const last = input.flow.steps.length - 1;
-      const rows = input.funnel.filter((r) => r.day === day && matches(r, slice));
+      const rows = funnelOn(input, day).filter((r) => matches(r, slice));
       return { num: sum(rows.filter((r) => r.step === last), (r) => r.reached), den: sum(rows.filter((r) => r.step === 0), (r) => r.reached) };
     }
     case 'step_people': {
       if (slice.dimension !== '') return ZERO;
-      const rows = input.steps.filter((r) => r.day === day && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version);
+      const rows = stepsOn(input, day).filter((r) => (slice.platform === null || r.platform === slice.platform) && r.version === slice.version);
       return { num: sum(rows.filter((r) => r.step === measure.step), (r) => r.people), den: sum(rows.filter((r) => r.step === 0), (r) => r.people) };
     }
     case 'event_people': {
-      const rows = input.events.filter((r) => r.day === day && r.event === measure.event && matches(r, slice));
+      const rows = eventsOn(input, day).filter((r) => r.event === measure.event && matches(r, slice));
       return { num: sum(rows, (r) => r.people), den: entrants(input, day, slice) };
     }
     case 'events_per_person': {
-      const rows = input.events.filter((r) => r.day === day && r.event === measure.event && matches(r, slice));
+      const rows = eventsOn(input, day).filter((r) => r.event === measure.event && matches(r, slice));
       return { num: sum(rows, (r) => r.events), den: sum(rows, (r) => r.people) };
     }
     // A day without rows is a day nobody sent it: a count of 0 (a platform sending nothing at all is freshness's to report).
     case 'event_count': {
-      const rows = input.events.filter((r) => r.day === day && r.event === measure.event && matches(r, slice));
+      const rows = eventsOn(input, day).filter((r) => r.event === measure.event && matches(r, slice));
       return { num: sum(rows, (r) => r.people), den: 1 };
     }
     case 'step_count': {
       if (slice.dimension !== '') return ZERO;
-      const rows = input.steps.filter(
-        (r) => r.day === day && r.step === measure.step && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version,
+      const rows = stepsOn(input, day).filter(
+        (r) => r.step === measure.step && (slice.platform === null || r.platform === slice.platform) && r.version === slice.version,
       );
       return { num: sum(rows, (r) => r.people), den: 1 };
     }
@@ -154,15 +160,16 @@ export function measureOn(input: CheckInput, measure: Measure, day: Day, slice: 
 /** App versions seen on a platform on a day (not the all-versions total). */
 export function versionsOn(input: CheckInput, platform: string, day: Day): string[] {
   const versions = new Set<string>();
-  for (const row of input.steps) if (row.day === day && row.platform === platform && row.version !== ALL_VERSIONS) versions.add(row.version);
-  for (const row of input.events) if (row.day === day && row.platform === platform && row.version !== ALL_VERSIONS) versions.add(row.version);
+  for (const row of stepsOn(input, day)) if (row.platform === platform && row.version !== ALL_VERSIONS) versions.add(row.version);
+  for (const row of eventsOn(input, day)) if (row.platform === platform && row.version !== ALL_VERSIONS) versions.add(row.version);
   return [...versions].sort();
 }
 
 /** Values of a dimension seen on a day (in the funnel for flow measures, in event counts otherwise). */
 export function dimensionValues(input: CheckInput, measure: Measure, dimension: string, day: Day): string[] {
-  const rows = measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'event_count' ? input.events : input.funnel;
-  return [...new Set(rows.filter((r) => r.day === day && r.dimension === dimension).map((r) => r.value))].sort();
+  const rows: ReadonlyArray<{ dimension: string; value: string }> =
+    measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'event_count' ? eventsOn(input, day) : funnelOn(input, day);
+  return [...new Set(rows.filter((r) => r.dimension === dimension).map((r) => r.value))].sort();
 }
 
 export function dimensionsIn(input: CheckInput): string[] {

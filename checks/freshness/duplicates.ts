@@ -8,7 +8,8 @@ import { median } from '../stats/index.js';
 import { baselineExclusions, withoutDays } from '../series.js';
 import type { CheckInput } from '../types.js';
 import { expectation } from '../volume/baseline.js';
-import { countSeries, eventRows, eventsPerPerson, platformDays } from '../volume/counts.js';
+import { countSeries, eventRows, platformDays } from '../series.js';
+import { eventsPerPerson } from '../volume/counts.js';
 
 export interface EventJump {
   event: string;

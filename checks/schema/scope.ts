@@ -95,7 +95,14 @@ export class EventScope {
    */
   excluder(family: Family, key: string): (version: string, day: Day) => boolean {
     const platformDays = this.exclusionsOf(this.seriesKey(family, key, null));
-    return (version, day) => platformDays.has(day) || this.exclusionsOf(this.seriesKey(family, key, version)).has(day);
+    // Called for every version and day of a reference: build each version's key once.
+    const byVersion = new Map<string, Set<Day>>();
+    return (version, day) => {
+      if (platformDays.has(day)) return true;
+      let days = byVersion.get(version);
+      if (!days) byVersion.set(version, (days = this.exclusionsOf(this.seriesKey(family, key, version))));
+      return days.has(day);
+    };
   }
 
   private exclusionsOf(seriesKey: string): Set<Day> {

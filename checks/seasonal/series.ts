@@ -5,17 +5,14 @@
  * - step-to-step and end-to-end conversion (FunnelDayRow, `funnel-rates.ts`);
  * - median time from the previous step (FunnelDayRow.secondsMedian).
  *
- * Missing days: a count with no row on a day is 0 when the platform sent
- * events that day (a day-status row with events) and the series had a row on
- * an earlier day: the platform stopped sending it, which is exactly what must
- * show. Before its first row (the event did not exist yet) or on a day the
- * platform sent nothing at all (not rolled up, or a freshness matter) it is
- * unknown (NaN). A rate is unknown on a day nobody reached its denominator
+ * Missing days: a count follows `countSeries` in checks/series.ts (0 once the
+ * series exists, on days the platform sent anything; unknown otherwise). A rate is unknown on a day nobody reached its denominator
  * step, a median time on a day with no timed step.
  */
 import { conversionSettled, funnelTotals, rateSeries, transitions } from '../funnel.js';
-import { dailySeries } from '../series.js';
-import { ALL_VERSIONS, type CheckInput, type Finding } from '../types.js';
+import { platformTotals } from '../rows.js';
+import { countSeries, dailySeries, eventRows, platformDays, stepRows } from '../series.js';
+import type { CheckInput, Finding } from '../types.js';
 
 export type SeriesKind = 'count' | 'rate' | 'seconds';
 
@@ -31,27 +28,15 @@ export interface JudgedSeries {
   support: Float64Array;
 }
 
-/** Counts with missing days read as 0 once the series exists, on days the platform sent events. */
-function countSeries(days: readonly string[], rows: ReadonlyArray<{ day: string; people: number }>, active: ReadonlySet<string>): Float64Array {
-  const values = dailySeries(days, rows, (row) => Number(row.people));
-  let seen = false;
-  for (let i = 0; i < days.length; i++) {
-    if (!Number.isNaN(values[i]!)) seen = true;
-    else if (seen && active.has(days[i]!)) values[i] = 0;
-  }
-  return values;
-}
-
 /** Every series judged for `platform`; funnel series only once the day's conversion window has passed. */
 export function seriesFor(input: CheckInput, platform: string): JudgedSeries[] {
   const flow = input.flow;
   const days = input.days;
-  const active = new Set(input.status.filter((row) => row.platform === platform && Number(row.events) > 0).map((row) => row.day));
+  const sending = platformDays(input, platform);
   const out: JudgedSeries[] = [];
 
   for (const event of flow.events) {
-    const rows = input.events.filter((row) => row.event === event && row.platform === platform && row.version === ALL_VERSIONS && row.dimension === '');
-    const values = countSeries(days, rows, active);
+    const values = countSeries(input, eventRows(input, event, platform), sending).people;
     out.push({
       seriesKey: `seasonal:people:${event}:${platform}:*`,
       kind: 'count',
@@ -63,8 +48,7 @@ export function seriesFor(input: CheckInput, platform: string): JudgedSeries[] {
     });
   }
   flow.steps.forEach((step, index) => {
-    const rows = input.steps.filter((row) => row.step === index && row.platform === platform && row.version === ALL_VERSIONS);
-    const values = countSeries(days, rows, active);
+    const values = countSeries(input, stepRows(input, index, platform), sending).people;
     out.push({
       seriesKey: `seasonal:step_people:${step.name}:${platform}:*`,
       kind: 'count',
@@ -91,7 +75,7 @@ export function seriesFor(input: CheckInput, platform: string): JudgedSeries[] {
       support: trials,
     });
   }
-  const timing = input.funnel.filter((row) => row.platform === platform && row.version === ALL_VERSIONS && row.dimension === '');
+  const timing = platformTotals(input).funnel.filter((row) => row.platform === platform);
   flow.steps.forEach((step, index) => {
     if (index === 0) return;
     const rows = timing.filter((row) => row.step === index && row.secondsMedian !== null);

@@ -270,7 +270,9 @@ export function judgeLatest(values: ArrayLike<number>, options: SeasonalOptions 
   weights[len - 1] = 1;
 
   if (usable >= o.minStlDays) {
-    const { seasonal } = stl(window, { period: o.period, sWindow: o.sWindow, robust: true, userWeights: weights });
+    // The robustness loop stops by the rule of the authors' own `stlez` routine (changes under 1% of each
+    // component's range): the detector needs the fit, not R's fixed 15 passes, and runs for every series every day.
+    const { seasonal } = stl(window, { period: o.period, sWindow: o.sWindow, robust: true, userWeights: weights, outerTolerance: 0.01 });
     const level = median(Array.from(window).filter((_, i) => weights[i]! > 0));
     // Residuals within 1e-9 of the series' size are the decomposition's rounding noise: count them as 0,
     // so a constant series has no spread rather than a spread of rounding errors.

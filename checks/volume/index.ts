@@ -36,11 +36,11 @@ import { z } from 'zod';
 import { formatNumber, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent, severity } from '../options.js';
 import { anomalousSince } from '../findings.js';
-import { baselineExclusions, excerpt, withoutDays } from '../series.js';
+import { baselineExclusions, countSeries, eventRows, excerpt, platformDays, stepRows, withoutDays, type Counts } from '../series.js';
 import { weekday } from '../time.js';
 import type { CheckInput, CheckModule, Finding, FlowStep, Severity, WithPlatforms } from '../types.js';
 import { expectation, logRatio } from './baseline.js';
-import { countSeries, eventRows, eventsPerPerson, platformDays, stepRows, type Counts } from './counts.js';
+import { eventsPerPerson } from './counts.js';
 
 export const options = z.strictObject({
   max_drop: percent().default(0.3).describe('A day with more than this share fewer people than expected is a drop (30%: below 0.7 times the usual).'),

@@ -58,7 +58,8 @@ export function sliceInput(
   hideValues = false,
 ): CheckInput {
   const from = addDays(day, -(historyDays - 1));
-  const within = <T extends { day: string }>(rows: T[]) => rows.filter((row) => row.day >= from && row.day <= day);
+  // Rows come sorted by day: the window is one slice, found by binary search.
+  const within = <T extends { day: string }>(rows: T[]) => rows.slice(firstAtOrAfter(rows, from), firstAtOrAfter(rows, addDays(day, 1)));
   const days: string[] = [];
   for (let d = from; d <= day; d = addDays(d, 1)) days.push(d);
   return {
@@ -76,6 +77,17 @@ export function sliceInput(
     timezone,
     hideValues,
   };
+}
+
+function firstAtOrAfter(rows: ReadonlyArray<{ day: string }>, day: string): number {
+  let lo = 0;
+  let hi = rows.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (rows[mid]!.day < day) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
 }
 
 /** Days earlier runs judged anomalous, per series, for baselines to leave out. */
