@@ -152,7 +152,8 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
       cause: {
         label: 'release',
         confidence: 0.9,
-        sentence: `${platform} ${finding.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${finding.message}`,
+        // The schema message names the version already: say it once.
+        sentence: `${platform} ${finding.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${withoutPrefix(finding.message, `${platform} ${finding.version} `)}`,
         platform,
         version: finding.version,
         evidence: { version: finding.version, firstSeen: seen ?? null, adoption, finding: finding.kind },
@@ -211,6 +212,10 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
       },
     },
   };
+}
+
+function withoutPrefix(text: string, prefix: string): string {
+  return text.startsWith(prefix) ? text.slice(prefix.length) : text;
 }
 
 /** What the version did, in words and numbers, against the other versions of its platform. */

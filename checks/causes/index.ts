@@ -91,7 +91,8 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
       day: input.day,
       since,
       severity,
-      title: `${scopeOf({ ...cause, platform })}: ${primary.message}`,
+      // Messages usually open with their platform and version: then the message is the title.
+      title: primary.message.startsWith(`${scopeOf({ ...cause, platform })} `) ? primary.message : `${scopeOf({ ...cause, platform })}: ${primary.message}`,
       subject,
       platform,
       version,
