@@ -1,5 +1,7 @@
 import { daysBetween } from '../../config/definitions.js';
 import { judgeDays, replayClock, rollupRange, runDay } from '../../pipeline/run-day.js';
+import { Claim } from '../../runner/claim.js';
+import { lockName } from '../../runner/queries.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { Progress } from '../progress.js';
@@ -26,6 +28,20 @@ export async function runRange(rt: Runtime, from: string, to: string, options: {
 }
 
 export async function runCommand(rt: Runtime, options: RunCommandOptions): Promise<number> {
+  // The same claim as `serve`'s daily pass: a manual run waits for a pass in progress instead of judging beside it.
+  const claim = await Claim.acquire(rt.state, lockName(rt.stateSchema, 'daily'), {
+    pollMs: 2000,
+    signal: new AbortController().signal,
+    onWait: () => console.error('plumbline: a daily pass is running elsewhere; waiting for it to finish'),
+  });
+  try {
+    return await runClaimed(rt, options);
+  } finally {
+    await claim?.release();
+  }
+}
+
+async function runClaimed(rt: Runtime, options: RunCommandOptions): Promise<number> {
   const valid = (day: string | undefined) => day === undefined || /^\d{4}-\d{2}-\d{2}$/.test(day);
   if (!valid(options.date) || !valid(options.from) || !valid(options.to)) throw new ExitError(EXIT.usage, 'dates are written YYYY-MM-DD');
   let from: string;
