@@ -1,5 +1,6 @@
 import type pg from 'pg';
 import { quoteIdent } from '../../service/db/sql.js';
+import { createIndexQuery, createTableQueries } from '../../service/demo/generate-sql.js';
 import type { WarehouseMapping } from '../../service/warehouse/queries.js';
 
 /** A raw row of a team's events table, as the tests write it. */
@@ -26,11 +27,10 @@ export function testMapping(schema: string): WarehouseMapping {
   };
 }
 
+/** The demo's events table (service/demo/generate-sql.ts): the shape `testMapping` maps, with its time index. */
 export async function createEventsTable(pool: pg.Pool, schema: string): Promise<void> {
-  await pool.query(`create table ${quoteIdent(schema)}.events (
-    occurred_at timestamptz not null, event_name text not null, user_id text, device_id text,
-    platform text, app_version text, props jsonb, country text, channel text)`);
-  await pool.query(`create index on ${quoteIdent(schema)}.events (occurred_at)`);
+  for (const query of createTableQueries(`${schema}.events`)) await pool.query(query);
+  await pool.query(createIndexQuery(`${schema}.events`));
 }
 
 export async function insertEvents(pool: pg.Pool, schema: string, events: RawEvent[]): Promise<void> {
