@@ -7,7 +7,7 @@
 import type { z } from 'zod';
 import { knownKeys, type JsonSchema } from './json-schema.js';
 import { closest, describeValue, orList, pathToKey, type ConfigProblem } from './problems.js';
-import { SECRET_REFERENCE } from './schema.js';
+import { RENAMED_KEYS, SECRET_REFERENCE } from './schema.js';
 import type { SourceFile } from './source.js';
 
 type Issue = z.core.$ZodIssue;
@@ -35,7 +35,7 @@ export function issuesToProblems(source: SourceFile, issues: readonly Issue[], s
   const problems = issues.flatMap((issue) => issueProblems(source, issue, schema));
   const misspelt = new Set(
     problems.flatMap((problem) => {
-      const meant = /^did you mean (.+)\?$/.exec(problem.hint ?? '')?.[1];
+      const meant = /did you mean (.+)\?$/.exec(problem.hint ?? '')?.[1];
       return problem.found.startsWith('unknown key') && meant ? [problem.key.replace(/[^.\]]+$/, meant)] : [];
     }),
   );
@@ -48,14 +48,15 @@ function issueProblems(source: SourceFile, issue: Issue, schema: JsonSchema): Co
   if (issue.code === 'unrecognized_keys') {
     const known = knownKeys(schema, path);
     return issue.keys.map((key) => {
-      const suggestion = closest(key, known);
+      const renamed = RENAMED_KEYS[pathToKey([...path, key])];
+      const suggestion = renamed ?? closest(key, known);
       return {
         ...base,
         ...source.position([...path, key], 'key'),
         key: pathToKey([...path, key]),
         expected: known.length > 0 ? `one of the keys ${known.join(', ')}` : 'no keys here',
         found: `unknown key "${key}"`,
-        ...(suggestion ? { hint: `did you mean ${suggestion}?` } : {}),
+        ...(suggestion ? { hint: `${renamed ? 'renamed: ' : ''}did you mean ${suggestion}?` } : {}),
       };
     });
   }

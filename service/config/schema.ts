@@ -17,6 +17,9 @@ export const SECRET_REFERENCE = /^\$\{[A-Z_][A-Z0-9_]*(:-[^}]*)?\}$/;
 /** The keys read through `resolveReference`: the only places an `${ENV}` reference means anything. */
 export const REFERENCE_KEYS = ['warehouse.url', 'state.url', 'delivery.chat.webhook_url', 'delivery.email.smtp_url'] as const;
 
+/** Keys renamed since they were first published, by full key: `validate` points from the old name to the new one. */
+export const RENAMED_KEYS: Readonly<Record<string, string>> = { 'incidents.renotify_cooldown': 'repeat_after' };
+
 const secretReference = (why: string) =>
   z.string().regex(SECRET_REFERENCE, { message: `expected an \${ENV_VAR} reference (${why})` });
 
@@ -129,11 +132,11 @@ export const mainSchema = z
     incidents: z
       .strictObject({
         resolve_after_days: z.number().int().min(1).max(30).default(2).describe('An incident resolves after this many judged days without its symptoms.'),
-        renotify_cooldown: duration()
+        repeat_after: duration()
           .default(86400)
-          .describe('At most one repeat notification per incident within this time (a severity rise).'),
+          .describe('Least time between two messages about one incident: a severity rise sooner than this after the last message waits.'),
       })
-      .default({ resolve_after_days: 2, renotify_cooldown: 86400 })
+      .default({ resolve_after_days: 2, repeat_after: 86400 })
       .describe('When incidents resolve and how often they notify again.'),
     delivery: z
       .strictObject({
@@ -206,7 +209,7 @@ const step = z.strictObject({
 
 const mute = z
   .strictObject({
-    check: slug().describe('Id of the check whose findings are silenced.'),
+    check: slug().describe('Id of the check whose findings are muted.'),
     platform: slug().optional().describe('Only this platform; all when absent.'),
     subject: z.string().optional().describe('Event, step or event.param the mute applies to; all subjects when absent.'),
     until: isoDate('expected an end date written YYYY-MM-DD (required: every mute expires)').describe(
@@ -215,7 +218,7 @@ const mute = z
     reason: z
       .string({ error: (issue) => (issue.input === undefined ? 'expected a reason (required: every mute says why)' : 'expected text') })
       .min(3, { message: 'expected a reason of at least 3 characters' })
-      .describe('Why the findings are silenced; shown where they are recorded.'),
+      .describe('Why the findings are muted; stored with each finding it covers.'),
   })
   .describe('Findings still recorded, never notified, until the end date.');
 
@@ -284,7 +287,7 @@ export function flowSchema(checks: readonly CheckModule[]) {
         })
         .describe('Options per check; every check runs with its defaults unless given here.'),
       calendar: z.array(calendarEntry).default([]).describe('Expected highs and lows of this flow (campaigns).'),
-      mutes: z.array(mute).default([]).describe('Silenced findings, each with an end date and a reason.'),
+      mutes: z.array(mute).default([]).describe('Findings kept out of chat until an end date, each with a reason; they are still judged and recorded.'),
     })
     .meta({ title: 'plumbline flow', description: 'One flow: its ordered steps, platforms, parameter contracts, check options, calendar and mutes.' });
 }

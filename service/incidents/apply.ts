@@ -27,7 +27,7 @@ import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentEvent, type Inc
 export function incidentPolicy(main: MainConfig): IncidentPolicy {
   return {
     resolveAfterDays: main.incidents.resolve_after_days,
-    renotifyCooldownSeconds: main.incidents.renotify_cooldown,
+    repeatAfterSeconds: main.incidents.repeat_after,
     publicUrl: main.http.public_url,
     owners: main.owners,
     hideValues: main.delivery.hide_values,
@@ -75,7 +75,7 @@ function mergeDrafts(drafts: readonly IncidentDraft[]): IncidentDraft[] {
 /**
  * Applies the incident drafts of one judged (flow, day), inside the caller's
  * transaction (after the day's verdict is stored in `judged_days`). `now` is
- * the run's clock: it stamps rows and measures the re-notification cooldown.
+ * the run's clock: it stamps rows and measures the wait between messages (`incidents.repeat_after`).
  */
 export async function applyIncidentDrafts(
   client: pg.ClientBase,
@@ -220,8 +220,8 @@ async function announceResolved(client: pg.ClientBase, schema: string, incidents
 /**
  * Announces the unresolved, unmuted incidents seen on the day: "opened" the
  * first time, "severity raised" when the severity is above what was last
- * announced and the cooldown since that announcement has passed (a rise
- * within the cooldown is announced once the cooldown is over, if it holds).
+ * announced and `incidents.repeat_after` has passed since that announcement
+ * (a rise sooner than that is announced once the wait is over, if it holds).
  */
 async function announceSeen(client: pg.ClientBase, schema: string, ids: string[], day: Day, policy: IncidentPolicy, now: Date): Promise<number> {
   if (ids.length === 0) return 0;
@@ -233,7 +233,7 @@ async function announceSeen(client: pg.ClientBase, schema: string, ids: string[]
     if (incident.notifiedSeverity === null) event = 'opened';
     else if (
       SEVERITY_RANK[incident.severity] > SEVERITY_RANK[incident.notifiedSeverity] &&
-      (incident.lastNotifiedAt === null || now.getTime() - Date.parse(incident.lastNotifiedAt) >= policy.renotifyCooldownSeconds * 1000)
+      (incident.lastNotifiedAt === null || now.getTime() - Date.parse(incident.lastNotifiedAt) >= policy.repeatAfterSeconds * 1000)
     ) {
       event = 'severity_raised';
     } else continue;

@@ -55,7 +55,7 @@ export interface IncidentPolicy {
   /** An incident resolves after this many judged days of its flow without it. */
   resolveAfterDays: number;
   /** At most one repeat announcement (a severity rise) per incident within this many seconds. */
-  renotifyCooldownSeconds: number;
+  repeatAfterSeconds: number;
   /** Base URL of the incident pages. */
   publicUrl: string;
   owners: Record<string, { chat_mention?: string; email: string[] }>;

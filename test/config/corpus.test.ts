@@ -124,6 +124,13 @@ const cases: Case[] = [
     changes: { [PASS]: replace('  volume: {', '  volumn: {') },
     problems: ['config/flows/monthly-pass.yaml:19:3 checks.volumn: expected one of the keys volume, parity, found unknown key "volumn" (did you mean volume?)'],
   },
+  {
+    name: 'a renamed key under its old name (too far from the new one for a spelling match)',
+    changes: { [MAIN]: replace('delivery:\n', 'incidents:\n  renotify_cooldown: 24h\ndelivery:\n') },
+    problems: [
+      'config/plumbline.yaml:25:3 incidents.renotify_cooldown: expected one of the keys resolve_after_days, repeat_after, found unknown key "renotify_cooldown" (renamed: did you mean repeat_after?)',
+    ],
+  },
 
   // Cron, timezone, durations, dates
   {

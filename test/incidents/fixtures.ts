@@ -18,7 +18,7 @@ export const MENTION = '<!subteam^S0GROWTH>';
 
 export const POLICY: IncidentPolicy = {
   resolveAfterDays: 2,
-  renotifyCooldownSeconds: 86_400,
+  repeatAfterSeconds: 86_400,
   publicUrl: 'http://plumbline.metropass.example/',
   owners: { [OWNER]: { chat_mention: MENTION, email: ['growth-analytics@metropass.example'] } },
   hideValues: false,

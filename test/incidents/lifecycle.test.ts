@@ -1,7 +1,7 @@
 /**
  * The incident lifecycle against a real PostgreSQL, on hand-made drafts:
  * one incident per fingerprint episode, one message when it opens and one
- * when it resolves, a severity rise announced once per cooldown, resolution
+ * when it resolves, a severity rise announced once, not sooner than repeat_after, resolution
  * after N clean judged days (not_ready days are not clean), muted incidents
  * recorded but never announced, and reruns of a (flow, day) that change nothing.
  */
@@ -61,12 +61,12 @@ describe('applyIncidentDrafts', () => {
     expect(detail!.sightings.map((s) => s.day)).toEqual(daysBetween('2026-11-18', '2026-11-22'));
   });
 
-  it('announces a severity rise once, and not before the cooldown has passed', async () => {
+  it('announces a severity rise once, and not before repeat_after has passed', async () => {
     await day('2026-11-18', [draft({ day: '2026-11-18', severity: 'warn' })], { now: clockFor('2026-11-18') });
-    // Judged 2 hours after the opening message: within the 24 h cooldown, so the rise waits.
+    // Judged 2 hours after the opening message: sooner than repeat_after (24 h), so the rise waits.
     await day('2026-11-19', [draft({ day: '2026-11-19', since: '2026-11-18', severity: 'page' })], { now: clockFor('2026-11-18', 2) });
     expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened']);
-    // The next day the cooldown is over and the rise still holds: announced once.
+    // The next day the wait is over and the rise still holds: announced once.
     await day('2026-11-20', [draft({ day: '2026-11-20', since: '2026-11-18', severity: 'page' })]);
     await day('2026-11-21', [draft({ day: '2026-11-21', since: '2026-11-18', severity: 'page' })]);
     await day('2026-11-22', [draft({ day: '2026-11-22', since: '2026-11-18', severity: 'warn' })]);

@@ -38,7 +38,7 @@ create table incidents (
   resolution text check (resolution in ('clean_days', 'withdrawn')),
   -- Severity last announced in chat; null while it has never been announced (muted).
   notified_severity text check (notified_severity in ('page', 'warn', 'note')),
-  -- When the last announcement was queued: caps repeats to one per renotify_cooldown.
+  -- When the last announcement was queued: caps repeats to one per incidents.repeat_after.
   last_notified_at timestamptz,
   opened_at timestamptz not null,
   updated_at timestamptz not null,
