@@ -52,7 +52,7 @@
  * 0 to 1. renamed: the share of events that moved from the old key to the new
  * one. out_of_range: distance beyond the bound in units of the declared range
  * (or of the bound's size when one bound is declared). vanished_key,
- * null_rate, type_changed, vanished_value: two-proportion z of the day
+ * null_rate, type_shift, vanished_value: two-proportion z of the day
  * against the pooled reference (Fleiss, Levin and Paik 2003), signed.
  */
 import { z } from 'zod';
@@ -95,7 +95,7 @@ const messages: Record<Kind, string> = {
   new_key: '{where} started sending `{param}` with {event}: {share} of {total} events',
   vanished_key: '{where} stopped sending `{param}` with {event}: in {share} of {total} events, usually {expected} ({low} to {high})',
   null_rate: '{where}: `{param}` of {event} is null in {share} of {total} events carrying it, usually {expected} ({low} to {high})',
-  type_changed: '{where} sends `{param}` of {event} as another type than {usual} (mostly {found}) in {share} of {total} events, usually {expected}',
+  type_shift: '{where} sends `{param}` of {event} as another type than {usual} (mostly {found}) in {share} of {total} events, usually {expected}',
   new_value: '{where} sends new values of `{param}` with {event}: {values} in {share} of {total} events',
   vanished_value: '{where} stopped sending `{param}` = {values} with {event}: 0 of {total} events, about {expected_count} expected',
 };
@@ -111,7 +111,7 @@ const METRICS: Record<Kind, string> = {
   new_key: 'presence',
   vanished_key: 'presence',
   null_rate: 'null_share',
-  type_changed: 'type_share',
+  type_shift: 'type_share',
   new_value: 'value_share',
   vanished_value: 'value_share',
 };

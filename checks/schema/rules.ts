@@ -20,7 +20,7 @@ export type Kind =
   | 'new_key'
   | 'vanished_key'
   | 'null_rate'
-  | 'type_changed'
+  | 'type_shift'
   | 'new_value'
   | 'vanished_value';
 
@@ -307,7 +307,7 @@ export function driftDrafts(scope: EventScope, rules: DriftRules): Draft[] {
         const nonNull = (stats?.events ?? 0) - nullEvents(day, key);
         return { x: nonNull - (stats?.types.get(usual)?.events ?? 0), n: nonNull };
       };
-      push('type_changed', key, 'type', measure, 'break', (versions, floor) => scope.judgeRate(versions, measure, scope.excluder('type', key), 'up', floor), (versions) => ({
+      push('type_shift', key, 'type', measure, 'break', (versions, floor) => scope.judgeRate(versions, measure, scope.excluder('type', key), 'up', floor), (versions) => ({
         usual,
         found: dominantType(scope, key, [scope.input.day], (version) => versions.includes(version)) ?? usual,
       }));

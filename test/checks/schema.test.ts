@@ -155,7 +155,7 @@ describe('schema: drift against recent days', () => {
     const cases: Array<[string, Record<string, KeySpec>, string]> = [
       ['vanished', referrerKeys({ referrer: { share: 0 } }), 'vanished_key web null screen_view.referrer warn'],
       ['nulls', referrerKeys({ referrer: { share: 0.3, nulls: 0.4, values: { home: 0.5, menu: 0.3, notification: 0.2 } } }), 'null_rate web null screen_view.referrer warn'],
-      ['type', referrerKeys({ referrer: { share: 0.3, type: 'number', minNumber: 1, maxNumber: 3 } }), 'type_changed web null screen_view.referrer warn'],
+      ['type', referrerKeys({ referrer: { share: 0.3, type: 'number', minNumber: 1, maxNumber: 3 } }), 'type_shift web null screen_view.referrer warn'],
     ];
     for (const [name, keys, expected] of cases) {
       const input = checkInput(passFlow(), DAYS, webViews(keys));
