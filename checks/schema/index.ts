@@ -40,7 +40,7 @@
  * (a campaign day may bring new values); contract breaks and renames keep
  * their severity, since no calendar day announces a broken rule.
  *
- * Values of keys that define flow steps (e.g. `screen` of `screen_view`) are
+ * Values of keys that define flow steps (e.g. `view` of `screen_shown`) are
  * left to the step counts by default (`step_values: off`): a screen that
  * stops arriving is a volume, conversion and parity finding of the flow that
  * uses it. Turned on (e.g. `note`), schema names the version from its first
@@ -75,7 +75,7 @@ export const options = z.strictObject({
   unknown_params: loudness('note').describe('Severity of keys a contract does not declare and of new keys of events without a contract, or off.'),
   new_values: loudness('note').describe('Severity of new values of low-cardinality keys without a declared enum, or off.'),
   step_values: loudness('off').describe(
-    'Severity of new and vanished values of keys that define flow steps (e.g. screen), which volume, conversion and parity already watch; off by default.',
+    'Severity of new and vanished values of keys that define flow steps (e.g. view), which volume, conversion and parity already watch; off by default.',
   ),
   tolerance: percent().default(0.01).describe("Share of an event's events that may break a contract rule (Wilson 95% lower bound) before it is reported."),
   min_events: z.number().int().min(1).default(30).describe('Fewest events of a version (or of pooled versions) on the day for its shares to be judged.'),

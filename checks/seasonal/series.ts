@@ -21,7 +21,7 @@ export interface JudgedSeries {
   kind: SeriesKind;
   metric: string;
   subject: Finding['subject'];
-  /** What the value is, for messages: `screen_view people`, `zone -> rider conversion`. */
+  /** What the value is, for messages: `screen_shown people`, `zone -> rider conversion`. */
   label: string;
   values: Float64Array;
   /** People behind each value: the count itself, the rate's denominator, the timed people. */

@@ -76,7 +76,7 @@ const EXCERPT_DAYS = 28;
 
 interface Series {
   subject: Finding['subject'];
-  /** How messages name it, e.g. `screen_view` or `step rider (screen_view screen=rider_details)`. */
+  /** How messages name it, e.g. `screen_shown` or `step rider (screen_shown view=rider_details)`. */
   label: string;
   /** Key part shared by its series keys: the event, or `step:<name>`. */
   key: string;

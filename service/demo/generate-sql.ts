@@ -363,8 +363,8 @@ function passJourneys(ctx: KindContext): KindSql {
   const price = `case d.zone ${Object.entries(PRICES).map(([zone, cents]) => `when ${sql.text(zone)} then ${sql.int(cents)}`).join(' ')} end`;
   const adult = `d.rider_type = ${sql.text('adult')}`;
   const zoneKey = `case when coalesce(j.version = ${sql.text(incidents.renameZoneVersion)}, false) then ${sql.text('zone')} else ${sql.text('fare_zone')} end`;
-  const screen = (name: string) => sql.json({ screen: name });
-  const view = sql.text('screen_view');
+  const shownView = (name: string) => sql.json({ view: name });
+  const shown = sql.text('screen_shown');
   const result = sql.text('pass_purchase_result');
 
   return {
@@ -428,16 +428,16 @@ from pass_journeys j
 cross join lateral (values
   (j.at0 - ${seconds('2 + 28 * j.j26')}, ${sql.text('app_open')}, jsonb_build_object(${sql.text('source')}, j.source),
     ${ctx.app} and j.j32 < ${sql.num(APP_OPEN_BEFORE_PASS)}, false),
-  (j.at0, ${view}, jsonb_build_object(${sql.text('screen')}, ${sql.text('pass_intro')}, ${sql.text('referrer')}, j.referrer), true, false),
-  (j.at0 + ${seconds('j.g1 * j.j22')}, ${view}, ${screen('pass_intro')}, j.j21 < ${sql.num(REPEAT_INTRO)}, false),
-  (j.r1, ${view}, ${screen('zone_picker')}, j.reach1, false),
-  (j.r1 + ${seconds('j.g2 * j.j24')}, ${view}, ${screen('zone_picker')}, j.reach1 and j.j23 < ${sql.num(REPEAT_ZONE)}, false),
+  (j.at0, ${shown}, jsonb_build_object(${sql.text('view')}, ${sql.text('pass_intro')}, ${sql.text('referrer')}, j.referrer), true, false),
+  (j.at0 + ${seconds('j.g1 * j.j22')}, ${shown}, ${shownView('pass_intro')}, j.j21 < ${sql.num(REPEAT_INTRO)}, false),
+  (j.r1, ${shown}, ${shownView('zone_picker')}, j.reach1, false),
+  (j.r1 + ${seconds('j.g2 * j.j24')}, ${shown}, ${shownView('zone_picker')}, j.reach1 and j.j23 < ${sql.num(REPEAT_ZONE)}, false),
   (j.r1 + ${seconds('j.g2 * (0.3 + 0.5 * j.j27)')}, ${sql.text('zone_selected')},
     jsonb_build_object(${zoneKey}, j.zone, ${sql.text('rider_type')}, j.rider_type),
     j.reach2 or (j.reach1 and j.j9 < ${sql.num(0.4)}), false),
-  (j.r2 + j.sk, ${view}, ${screen('rider_details')},
+  (j.r2 + j.sk, ${shown}, ${shownView('rider_details')},
     j.reach2 and not coalesce(j.version = ${sql.text(incidents.dropRiderVersion)}, false), j.switch),
-  (j.r3 + j.sk, ${view}, ${screen('pay_review')},
+  (j.r3 + j.sk, ${shown}, ${shownView('pay_review')},
     j.reach3 and not ${sql.within('j.r3 + j.sk', model.id === 'web' ? incidents.webPayReviewOutage : null, ctx.tz)}, j.switch),
   (j.r4 + j.sk, ${result}, j.result_props, j.result is not null, j.switch),
   (j.r4 + j.sk + ${seconds('0.003 + 0.04 * j.j31')}, ${result}, j.result_props,
@@ -476,7 +476,7 @@ function signupJourneys(ctx: KindContext): KindSql {
 from signup_journeys j
 cross join lateral (values
   (j.at0 - ${seconds('2 + 20 * j.j16')}, ${sql.text('app_open')}, ${sql.json({ source: 'launcher' })}, ${ctx.app}),
-  (j.at0, ${sql.text('screen_view')}, ${sql.json({ screen: 'signup_form' })}, true),
+  (j.at0, ${sql.text('screen_shown')}, ${sql.json({ view: 'signup_form' })}, true),
   (j.at0 + ${seconds('j.g1')}, ${sql.text('signup_submitted')}, jsonb_build_object(${sql.text('method')}, j.method), j.reach1),
   (j.at0 + ${seconds('j.g1 + j.g2')}, ${sql.text('email_verified')}, ${sql.json({})}, j.reach2)
 ) as e(at, name, props, keep)

@@ -195,7 +195,7 @@ export interface DayRange {
  * whenever that version runs.
  */
 export interface IncidentSwitches {
-  /** App version that sends no rider_details screen view, if any. */
+  /** App version that sends no screen_shown {view: rider_details}, if any. */
   dropRiderVersion: string | null;
   /** App version that sends `zone` instead of `fare_zone`, if any. */
   renameZoneVersion: string | null;

@@ -55,7 +55,7 @@ describe('analyseCauses', () => {
   it('labels a declared day that moved everywhere alike as calendar', () => {
     const input = buildInput({ breakage: () => ({ volume: 0.55 }), calendar: [{ day: DAY, note: 'Labor Day', expect: 'low' }] });
     const volume = (platform: string) =>
-      finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_view', event: 'screen_view' }, platform, calendar: 'Labor Day', severity: 'note' });
+      finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform, calendar: 'Labor Day', severity: 'note' });
     const draft = onlyDraft(analyseCauses(input, [volume('web'), volume('android'), volume('ios')]));
     expect(draft.cause.label).toBe('calendar');
     expect(draft.cause.sentence).toContain('Labor Day');
@@ -65,7 +65,7 @@ describe('analyseCauses', () => {
   it('prefers the calendar to a segment on a declared day that moved as announced', () => {
     // A national holiday hits one country's riders: the drill-down would name the country, the calendar already does.
     const breakage = ({ country }: { country: string }) => (country === 'US' ? { volume: 0.4 } : {});
-    const volume = finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_view', event: 'screen_view' }, platform: 'web' });
+    const volume = finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform: 'web' });
     const declared = buildInput({ breakage, calendar: [{ day: DAY, note: 'Thanksgiving', expect: 'low' }] });
     expect(onlyDraft(analyseCauses(declared, [volume])).cause.label).toBe('calendar');
     // The same move on an ordinary day is the segment's.
@@ -78,7 +78,7 @@ describe('analyseCauses', () => {
     const input = buildInput({ breakage: () => ({ volume: 0.5 }) });
     const volume = (platform: string, event: string) =>
       finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform });
-    const all = ['web', 'android', 'ios'].flatMap((p) => [volume(p, 'screen_view'), volume(p, 'pass_purchase_result')]);
+    const all = ['web', 'android', 'ios'].flatMap((p) => [volume(p, 'screen_shown'), volume(p, 'pass_purchase_result')]);
     expect(onlyDraft(analyseCauses(input, all)).cause.label).toBe('data_delay');
 
     const partial = finding({ check: 'freshness', metric: 'hourly_events', subject: { type: 'day', name: DAY }, platform: null, kind: 'partial_day' });

@@ -11,15 +11,15 @@ export const FLOW: FlowDefinition = {
   id: 'monthly_pass',
   owner: 'growth-analytics',
   steps: [
-    { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-    { name: 'rider', event: 'screen_view', where: { screen: 'rider_details' } },
+    { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+    { name: 'rider', event: 'screen_shown', where: { view: 'rider_details' } },
     { name: 'done', event: 'pass_purchase_result', where: { outcome: 'approved' } },
   ],
   conversionWindowSeconds: 1800,
   stepTimeCapSeconds: 300,
   entry: 'first_step_only',
   platforms: ['web', 'android', 'ios'],
-  events: ['screen_view', 'pass_purchase_result'],
+  events: ['screen_shown', 'pass_purchase_result'],
   contracts: {},
 };
 
@@ -112,7 +112,7 @@ function pushSteps(rows: StepDayRow[], day: string, platform: string, version: s
 }
 
 function pushEvents(rows: EventDayRow[], day: string, platform: string, version: string, dimension: string, value: string, t: { intro: number; rider: number; done: number }) {
-  rows.push({ day, event: 'screen_view', platform, version, dimension, value, events: t.intro + t.rider, people: t.intro });
+  rows.push({ day, event: 'screen_shown', platform, version, dimension, value, events: t.intro + t.rider, people: t.intro });
   rows.push({ day, event: 'pass_purchase_result', platform, version, dimension, value, events: t.done, people: t.done });
 }
 

@@ -31,7 +31,7 @@ describe('conversion check', () => {
       check: 'conversion',
       kind: 'drop',
       flow: 'monthly_pass',
-      subject: { type: 'step', name: 'zone', step: 'zone', event: 'screen_view' },
+      subject: { type: 'step', name: 'zone', step: 'zone', event: 'screen_shown' },
       metric: 'conversion',
       platform: 'web',
       version: null,

@@ -22,16 +22,16 @@ export function passFlow(overrides: Partial<FlowDefinition> = {}): FlowDefinitio
     id: 'monthly_pass',
     owner: 'growth-analytics',
     steps: [
-      { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-      { name: 'zone', event: 'screen_view', where: { screen: 'zone_picker' } },
-      { name: 'rider', event: 'screen_view', where: { screen: 'rider_details' } },
+      { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+      { name: 'zone', event: 'screen_shown', where: { view: 'zone_picker' } },
+      { name: 'rider', event: 'screen_shown', where: { view: 'rider_details' } },
       { name: 'done', event: 'pass_purchase_result', where: { outcome: 'approved' } },
     ],
     conversionWindowSeconds: 1800,
     stepTimeCapSeconds: 300,
     entry: 'first_step_only',
     platforms: ['web', 'android', 'ios'],
-    events: ['screen_view', 'pass_purchase_result', 'zone_selected'],
+    events: ['screen_shown', 'pass_purchase_result', 'zone_selected'],
     contracts: {
       zone_selected: {
         fare_zone: { type: 'string', enum: ['A', 'AB', 'ABC'], required: true, nullable: false },

@@ -51,8 +51,8 @@ export function flowConfig(file: FlowFile = {}): FlowConfig {
     flow: 'monthly_pass',
     owner: 'growth-analytics',
     steps: [
-      { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-      { name: 'zone', event: 'screen_view', where: { screen: 'zone_picker' } },
+      { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+      { name: 'zone', event: 'screen_shown', where: { view: 'zone_picker' } },
       { name: 'done', event: 'pass_purchase_result', where: { outcome: 'approved' } },
     ],
     conversion_window: file.conversion_window ?? '30m',

@@ -7,20 +7,20 @@ import type { CalendarDay, CheckInput, CheckModule, DayStatusRow, EventDayRow, F
 import { ALL_VERSIONS } from '../../checks/types.js';
 import { flowSchema, type FlowConfig } from '../../service/config/schema.js';
 
-/** A cut-down monthly_pass: two narrowed screen_view steps and a purchase step that is its whole event. */
+/** A cut-down monthly_pass: two narrowed screen_shown steps and a purchase step that is its whole event. */
 export const flow: FlowDefinition = {
   id: 'monthly_pass',
   owner: 'growth-analytics',
   steps: [
-    { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-    { name: 'rider', event: 'screen_view', where: { screen: 'rider_details' } },
+    { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+    { name: 'rider', event: 'screen_shown', where: { view: 'rider_details' } },
     { name: 'done', event: 'pass_purchase_result', where: {} },
   ],
   conversionWindowSeconds: 1800,
   stepTimeCapSeconds: 300,
   entry: 'first_step_only',
   platforms: ['web', 'android'],
-  events: ['screen_view', 'pass_purchase_result'],
+  events: ['screen_shown', 'pass_purchase_result'],
   contracts: {},
 };
 

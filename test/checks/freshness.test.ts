@@ -176,12 +176,12 @@ describe('freshness: restated days and duplicate rows', () => {
     const perPerson = (event: string) => (day: string) => (day === DAY && jumping.includes(event) ? 3 : 1.5);
     return makeInput({
       end: DAY,
-      series: ['screen_view', 'pass_purchase_result'].map((event) => ({ platform: 'android', event, people: usual(800), perPerson: perPerson(event) })),
+      series: ['screen_shown', 'pass_purchase_result'].map((event) => ({ platform: 'android', event, people: usual(800), perPerson: perPerson(event) })),
     });
   }
 
   it('reports rows loaded twice when most watched events of a platform double per person', () => {
-    const i = perPersonInput(['screen_view', 'pass_purchase_result']);
+    const i = perPersonInput(['screen_shown', 'pass_purchase_result']);
     const findings = freshnessCheck.run(i, opts());
     expect(findings.map((f) => [f.kind, f.platform, f.severity]), describeInput(i)).toEqual([['duplicates', 'android', 'warn']]);
     expect(findings[0]!.observed, describeInput(i)).toBeCloseTo(2, 1);

@@ -112,7 +112,7 @@ describe('parity: absent steps and events', () => {
     const input = checkInput(passFlow(), DAYS, funnels(noRider));
     const findings = run(input);
     expect(summary(findings), explain(input)).toEqual(['absent_step web rider down warn']);
-    expect(findings[0]!.message).toMatch(/^web stopped sending the rider step \(screen_view\) while android\/ios still do: 0 people, usually [\d,.]+$/);
+    expect(findings[0]!.message).toMatch(/^web stopped sending the rider step \(screen_shown\) while android\/ios still do: 0 people, usually [\d,.]+$/);
     expect(findings[0]!.score).toBe(-1);
   });
 

@@ -22,7 +22,7 @@ const renamedKeys = (): Record<string, KeySpec> => ({
   rider_type: { values: { adult: 0.7, student: 0.18, senior: 0.12 } },
 });
 const referrerKeys = (overrides: Record<string, KeySpec> = {}): Record<string, KeySpec> => ({
-  screen: { values: { pass_intro: 0.3, zone_picker: 0.25, rider_details: 0.22, pay_review: 0.23 } },
+  view: { values: { pass_intro: 0.3, zone_picker: 0.25, rider_details: 0.22, pay_review: 0.23 } },
   referrer: { share: 0.3, values: { home: 0.5, menu: 0.3, notification: 0.2 } },
   ...overrides,
 });
@@ -143,19 +143,19 @@ describe('schema: contract and renames', () => {
 });
 
 describe('schema: drift against recent days', () => {
-  /** web screen_view (no contract): one version, `today` replaces the judged day's keys. */
+  /** web screen_shown (no contract): one version, `today` replaces the judged day's keys. */
   const webViews = (today: Record<string, KeySpec>, past: (i: number) => Record<string, KeySpec> = () => referrerKeys()) => {
     const total = around(3000, 3);
-    return profileHistory(DAYS, 'screen_view', 'web', { '': (d, i) => ({ total: total(d, i), keys: i === LAST ? today : past(i) }) });
+    return profileHistory(DAYS, 'screen_shown', 'web', { '': (d, i) => ({ total: total(d, i), keys: i === LAST ? today : past(i) }) });
   };
 
   it('reports a vanished key, a null-rate jump and a type change, and stays quiet on the usual mix', () => {
     const quiet = checkInput(passFlow(), DAYS, webViews(referrerKeys({ referrer: { share: 0.27, values: { home: 0.5, menu: 0.3, notification: 0.2 } } })));
     expect(summary(run(quiet)), explain(quiet)).toEqual([]);
     const cases: Array<[string, Record<string, KeySpec>, string]> = [
-      ['vanished', referrerKeys({ referrer: { share: 0 } }), 'vanished_key web null screen_view.referrer warn'],
-      ['nulls', referrerKeys({ referrer: { share: 0.3, nulls: 0.4, values: { home: 0.5, menu: 0.3, notification: 0.2 } } }), 'null_rate web null screen_view.referrer warn'],
-      ['type', referrerKeys({ referrer: { share: 0.3, type: 'number', minNumber: 1, maxNumber: 3 } }), 'type_shift web null screen_view.referrer warn'],
+      ['vanished', referrerKeys({ referrer: { share: 0 } }), 'vanished_key web null screen_shown.referrer warn'],
+      ['nulls', referrerKeys({ referrer: { share: 0.3, nulls: 0.4, values: { home: 0.5, menu: 0.3, notification: 0.2 } } }), 'null_rate web null screen_shown.referrer warn'],
+      ['type', referrerKeys({ referrer: { share: 0.3, type: 'number', minNumber: 1, maxNumber: 3 } }), 'type_shift web null screen_shown.referrer warn'],
     ];
     for (const [name, keys, expected] of cases) {
       const input = checkInput(passFlow(), DAYS, webViews(keys));
@@ -164,25 +164,25 @@ describe('schema: drift against recent days', () => {
     const vanished = run(checkInput(passFlow(), DAYS, webViews(cases[0]![1])))[0]!;
     expect(vanished.direction).toBe('down');
     expect(vanished.score).toBeLessThan(-3.29); // two-proportion z beyond the two-sided 0.001 critical value (normal quantile)
-    expect(vanished.message).toMatch(/^web stopped sending `referrer` with screen_view: in 0\.0% of [\d,]+ events, usually 30\.0% \(20\.0% to 40\.0%\)$/);
+    expect(vanished.message).toMatch(/^web stopped sending `referrer` with screen_shown: in 0\.0% of [\d,]+ events, usually 30\.0% \(20\.0% to 40\.0%\)$/);
   });
 
   it('reports a new key once, on the day it first appears', () => {
     const first = checkInput(passFlow(), DAYS, webViews(referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } })));
-    expect(summary(run(first)), explain(first)).toEqual(['new_key web null screen_view.session_tag note']);
+    expect(summary(run(first)), explain(first)).toEqual(['new_key web null screen_shown.session_tag note']);
     const nextDays = [...DAYS.slice(1), '2026-11-11'];
-    const next = checkInput(passFlow(), nextDays, profileHistory(nextDays, 'screen_view', 'web', { '': (_d, i) => ({ total: 3000, keys: i >= LAST - 1 ? referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) : referrerKeys() }) }));
+    const next = checkInput(passFlow(), nextDays, profileHistory(nextDays, 'screen_shown', 'web', { '': (_d, i) => ({ total: 3000, keys: i >= LAST - 1 ? referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) : referrerKeys() }) }));
     expect(summary(run(next)), explain(next)).toEqual([]);
     expect(run(first, { unknown_params: 'off' })).toEqual([]);
     // A stray event carrying the key yesterday does not make it known.
-    const stray = checkInput(passFlow(), nextDays, profileHistory(nextDays, 'screen_view', 'web', { '': (_d, i) => ({ total: 3000, keys: i === LAST ? referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) : i === LAST - 1 ? referrerKeys({ session_tag: { share: 0.0004, values: { x: 1 } } }) : referrerKeys() }) }));
-    expect(summary(run(stray)), explain(stray)).toEqual(['new_key web null screen_view.session_tag note']);
+    const stray = checkInput(passFlow(), nextDays, profileHistory(nextDays, 'screen_shown', 'web', { '': (_d, i) => ({ total: 3000, keys: i === LAST ? referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) : i === LAST - 1 ? referrerKeys({ session_tag: { share: 0.0004, values: { x: 1 } } }) : referrerKeys() }) }));
+    expect(summary(run(stray)), explain(stray)).toEqual(['new_key web null screen_shown.session_tag note']);
   });
 
   it('reports new values of a low-cardinality key without an enum (an enum turns them into contract breaks)', () => {
     const input = checkInput(passFlow(), DAYS, webViews(referrerKeys({ referrer: { share: 0.3, values: { home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 } } })));
     const findings = run(input);
-    expect(summary(findings), explain(input)).toEqual(['new_value web null screen_view.referrer note']);
+    expect(summary(findings), explain(input)).toEqual(['new_value web null screen_shown.referrer note']);
     expect(findings[0]!.message).toContain('push');
     // delivery.hide_values: the value is counted, never quoted.
     const hidden = run({ ...input, hideValues: true });
@@ -194,16 +194,16 @@ describe('schema: drift against recent days', () => {
     const total = around(1500, 4);
     const rows = (keys: Record<string, KeySpec>) =>
       merge(
-        profileHistory(DAYS, 'screen_view', 'android', { '7.3.0': (d, i) => ({ total: total(d, i), keys: referrerKeys() }) }),
-        profileHistory([TODAY], 'screen_view', 'android', { '7.4.0': () => ({ total: 400, keys }) }),
+        profileHistory(DAYS, 'screen_shown', 'android', { '7.3.0': (d, i) => ({ total: total(d, i), keys: referrerKeys() }) }),
+        profileHistory([TODAY], 'screen_shown', 'android', { '7.4.0': () => ({ total: 400, keys }) }),
       );
     const noMenu = checkInput(passFlow(), DAYS, rows(referrerKeys({ referrer: { share: 0.3, values: { home: 0.7, notification: 0.3 } } })));
     const findings = run(noMenu);
-    expect(summary(findings), explain(noMenu)).toEqual(['vanished_value android 7.4.0 screen_view.referrer warn']);
-    expect(findings[0]!.message).toBe('android 7.4.0 stopped sending `referrer` = menu with screen_view: 0 of 120 events, about 36 expected');
-    const noRider = checkInput(passFlow(), DAYS, rows(referrerKeys({ screen: { values: { pass_intro: 0.4, zone_picker: 0.3, pay_review: 0.3 } } })));
+    expect(summary(findings), explain(noMenu)).toEqual(['vanished_value android 7.4.0 screen_shown.referrer warn']);
+    expect(findings[0]!.message).toBe('android 7.4.0 stopped sending `referrer` = menu with screen_shown: 0 of 120 events, about 36 expected');
+    const noRider = checkInput(passFlow(), DAYS, rows(referrerKeys({ view: { values: { pass_intro: 0.4, zone_picker: 0.3, pay_review: 0.3 } } })));
     expect(summary(run(noRider)), explain(noRider)).toEqual([]);
-    expect(summary(run(noRider, { step_values: 'note' }))).toEqual(['vanished_value android 7.4.0 screen_view.screen note']);
+    expect(summary(run(noRider, { step_values: 'note' }))).toEqual(['vanished_value android 7.4.0 screen_shown.view note']);
   });
 });
 
@@ -225,7 +225,7 @@ describe('schema: mutes, calendar, overrides, anomalous days', () => {
     const calendar = [{ day: TODAY, note: 'public holiday', expect: 'low' as const }];
     const total = around(3000, 5);
     const rows = merge(
-      profileHistory(DAYS, 'screen_view', 'web', { '': (d, i) => ({ total: total(d, i), keys: i === LAST ? referrerKeys({ referrer: { share: 0 } }) : referrerKeys() }) }),
+      profileHistory(DAYS, 'screen_shown', 'web', { '': (d, i) => ({ total: total(d, i), keys: i === LAST ? referrerKeys({ referrer: { share: 0 } }) : referrerKeys() }) }),
       profileHistory(DAYS, 'zone_selected', 'web', { '': (_d, i) => ({ total: 800, keys: i === LAST ? zoneKeys({ fare_zone: { share: 0.5, values: { A: 0.45, AB: 0.4, ABC: 0.15 } } }) : zoneKeys() }) }),
       iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 38, keys: zoneKeys() }, '5.2.0': { total: 40, keys: renamedKeys() } }),
     );
@@ -251,13 +251,13 @@ describe('schema: mutes, calendar, overrides, anomalous days', () => {
     // referrer vanished 19 days ago: learnt from, those days would make 0% look usual.
     const gone = LAST - 19;
     const total = around(3000, 6);
-    const rows = profileHistory(DAYS, 'screen_view', 'web', { '': (d, i) => ({ total: total(d, i), keys: i >= gone ? referrerKeys({ referrer: { share: 0 } }) : referrerKeys() }) });
+    const rows = profileHistory(DAYS, 'screen_shown', 'web', { '': (d, i) => ({ total: total(d, i), keys: i >= gone ? referrerKeys({ referrer: { share: 0 } }) : referrerKeys() }) });
     const learnt = checkInput(passFlow(), DAYS, rows);
     expect(summary(run(learnt)), explain(learnt)).toEqual([]);
-    const key = 'schema:presence:screen_view.referrer:web:*';
+    const key = 'schema:presence:screen_shown.referrer:web:*';
     const excluded = checkInput(passFlow(), DAYS, { ...rows, anomalous: { [key]: DAYS.slice(gone, LAST) } });
     const findings = run(excluded);
-    expect(summary(findings), explain(excluded)).toEqual(['vanished_key web null screen_view.referrer warn']);
+    expect(summary(findings), explain(excluded)).toEqual(['vanished_key web null screen_shown.referrer warn']);
     expect(findings[0]!.since).toBe(DAYS[gone]);
     expect(findings[0]!.expected.center).toBeCloseTo(0.3, 2);
   });

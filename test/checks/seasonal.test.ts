@@ -23,12 +23,12 @@ type Options = WithPlatforms<Record<string, unknown>>;
 const days = daysEnding(DAY, 120);
 const run = (input: ReturnType<typeof makeInput>, given: Record<string, unknown> = {}) =>
   seasonalCheck.run(input, optionsOf<Options>('seasonal', given) as Parameters<typeof seasonalCheck.run>[1]);
-const KEY = 'seasonal:people:screen_view:web:*';
+const KEY = 'seasonal:people:screen_shown:web:*';
 
-/** screen_view people on a platform: a weekly pattern around `level` with `noise` (relative sd), the judged day replaced by `today` (undefined: no row). */
+/** screen_shown people on a platform: a weekly pattern around `level` with `noise` (relative sd), the judged day replaced by `today` (undefined: no row). */
 function views(platform: string, today: number | undefined, level = 1000, noise = 0.03, seed = 7): EventDayRow[] {
   const values = weeklyCounts(days, level, noise, seed);
-  return days.flatMap((day, i) => (day !== DAY ? [eventDay(day, platform, 'screen_view', values[i]!)] : today === undefined ? [] : [eventDay(day, platform, 'screen_view', today)]));
+  return days.flatMap((day, i) => (day !== DAY ? [eventDay(day, platform, 'screen_shown', values[i]!)] : today === undefined ? [] : [eventDay(day, platform, 'screen_shown', today)]));
 }
 
 /** The usual value of DAY (a Wednesday: WEEKLY[3] = 1.01) at `level`. */
@@ -48,7 +48,7 @@ describe('seasonal check', () => {
       check: 'seasonal',
       kind: 'below',
       flow: 'monthly_pass',
-      subject: { type: 'event', name: 'screen_view', event: 'screen_view' },
+      subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' },
       metric: 'people',
       platform: 'web',
       version: null,
@@ -63,7 +63,7 @@ describe('seasonal check', () => {
       expected: { center: (reference.low + reference.high) / 2, low: reference.low, high: reference.high },
       evidence: { method: 'stl-esd', history_days: 84, people: 505 },
     });
-    expect(finding.message).toMatch(/^web screen_view people 505 on a Wednesday, expected [\d,]+ to [\d,]+ \(usual [\d,]+, -\d+%\)$/);
+    expect(finding.message).toMatch(/^web screen_shown people 505 on a Wednesday, expected [\d,]+ to [\d,]+ \(usual [\d,]+, -\d+%\)$/);
     expect(finding.excerpt).toHaveLength(28);
     expect(finding.excerpt.at(-1)).toMatchObject({ day: DAY, value: 505, flagged: true });
     expect(finding.excerpt.every((point) => point.expectedLow !== undefined && point.expectedHigh !== undefined)).toBe(true);
@@ -164,14 +164,14 @@ describe('seasonal check', () => {
     for (const last of days.slice(-28)) {
       const window = daysEnding(last, 120);
       const values = weeklyCounts(window, 1000, 0.03, 13);
-      const input = makeInput({ days: window, events: window.map((day, i) => eventDay(day, 'web', 'screen_view', values[i]!)) });
+      const input = makeInput({ days: window, events: window.map((day, i) => eventDay(day, 'web', 'screen_shown', values[i]!)) });
       if (run(input).length > 0) flagged.push(last);
     }
     expect(flagged).toEqual([]);
   });
 
   it('mutes through judgeDay', () => {
-    const file: FlowFile = { mutes: [{ check: 'seasonal', platform: 'web', subject: 'screen_view', until: '2026-12-15', reason: 'web redesign test' }] };
+    const file: FlowFile = { mutes: [{ check: 'seasonal', platform: 'web', subject: 'screen_shown', until: '2026-12-15', reason: 'web redesign test' }] };
     const input = makeInput({ events: views('web', 505) });
     const judged = judgeDay(input, flowConfig(file), [seasonalCheck as unknown as CheckModule]);
     expect(judged.errors).toEqual([]);

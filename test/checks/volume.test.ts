@@ -33,7 +33,7 @@ describe('volume: people per event and step', () => {
       check: 'volume',
       kind: 'drop',
       flow: 'monthly_pass',
-      subject: { type: 'step', name: 'rider', event: 'screen_view', step: 'rider' },
+      subject: { type: 'step', name: 'rider', event: 'screen_shown', step: 'rider' },
       metric: 'people',
       platform: 'android',
       version: null,
@@ -52,7 +52,7 @@ describe('volume: people per event and step', () => {
     expect(f.excerpt).toHaveLength(28);
     expect(f.excerpt.at(-1)).toMatchObject({ day: DAY, flagged: true });
     expect(f.excerpt.at(-1)!.expectedLow).toBeCloseTo(f.expected.low, 6);
-    expect(f.message).toContain('android step rider (screen_view screen=rider_details)');
+    expect(f.message).toContain('android step rider (screen_shown view=rider_details)');
     expect(f.message).toContain(`${Math.round(100 * (1 - f.observed / f.expected.center))}% below the usual`);
     expect(f.evidence).toMatchObject({ people: f.observed, sameWeekdays: 4 });
   });
@@ -92,10 +92,10 @@ describe('volume: people per event and step', () => {
   });
 
   it('counts ids only from platform totals: version and dimension rows are left out', () => {
-    const input = makeInput({ end: DAY, series: [series('android', { event: 'screen_view' }, 1000)] });
+    const input = makeInput({ end: DAY, series: [series('android', { event: 'screen_shown' }, 1000)] });
     input.events.push(
-      { day: DAY, event: 'screen_view', platform: 'android', version: '7.4.0', dimension: '', value: '', events: 9000, people: 6000 },
-      { day: DAY, event: 'screen_view', platform: 'android', version: '*', dimension: 'country', value: 'CA', events: 9000, people: 6000 },
+      { day: DAY, event: 'screen_shown', platform: 'android', version: '7.4.0', dimension: '', value: '', events: 9000, people: 6000 },
+      { day: DAY, event: 'screen_shown', platform: 'android', version: '*', dimension: 'country', value: 'CA', events: 9000, people: 6000 },
     );
     expect(run(input), describeInput(input)).toEqual([]);
   });
@@ -142,7 +142,7 @@ describe('volume: events per person', () => {
     const input = makeInput({
       end: DAY,
       series: [
-        { platform: 'android', event: 'screen_view', people: usual(3000), perPerson },
+        { platform: 'android', event: 'screen_shown', people: usual(3000), perPerson },
         { platform: 'android', step: 1, people: usual(900), perPerson },
       ],
     });
@@ -151,7 +151,7 @@ describe('volume: events per person', () => {
   });
 
   it('stays quiet within max_events_per_person_change', () => {
-    const input = makeInput({ end: DAY, series: [{ platform: 'android', event: 'screen_view', people: usual(3000), perPerson: (day) => (day === DAY ? 2.1 : 1.5) }] });
+    const input = makeInput({ end: DAY, series: [{ platform: 'android', event: 'screen_shown', people: usual(3000), perPerson: (day) => (day === DAY ? 2.1 : 1.5) }] });
     expect(run(input), describeInput(input)).toEqual([]);
   });
 });

@@ -1,8 +1,8 @@
 /**
  * `validate --against-state`: flows compared with what the rollups in a real
  * state schema saw. The schema holds four weeks of rollups ending 2026-11-28,
- * in which `zone_selected` was renamed `zone_selectd` and the `screen` values
- * of screen_view are fully profiled; one older row sits outside the window.
+ * in which `zone_selected` was renamed `zone_selectd` and the `view` values
+ * of screen_shown are fully profiled; one older row sits outside the window.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { EXIT } from '../../service/cli/exit-codes.js';
@@ -37,10 +37,10 @@ beforeAll(async () => {
   await migrate(db.pool, db.schema);
   const count = (event: string) => ({ event, platform: 'web', version: '*', dimension: '', value: '', events: 100, people: 80 });
   await db.pool.query(insertEventDays(db.schema, '2026-10-01', [count('zone_selected')]));
-  await db.pool.query(insertEventDays(db.schema, NEWEST, ['screen_view', 'pass_purchase_result', 'signup_submitted', 'zone_selectd'].map(count)));
+  await db.pool.query(insertEventDays(db.schema, NEWEST, ['screen_shown', 'pass_purchase_result', 'signup_submitted', 'zone_selectd'].map(count)));
   await db.pool.query(
     insertParamDays(db.schema, NEWEST, [
-      param('screen_view', 'screen', ['pass_intro', 'zone_picker', 'pay_review', 'signup_form']),
+      param('screen_shown', 'view', ['pass_intro', 'zone_picker', 'pay_review', 'signup_form']),
       param('pass_purchase_result', 'outcome', ['approved', 'declined', 'cancelled']),
       param('pass_purchase_result', 'order_id', null),
     ]),
@@ -62,7 +62,7 @@ function stateCopy(changes: Changes = {}) {
 describe('validate --against-state', () => {
   it('warns about events, step parameters and step values the rollups never saw', async () => {
     const fixture = stateCopy({
-      'flows/monthly-pass.yaml': replace('where: { screen: zone_picker }', 'where: { screen_name: zone_picker }'),
+      'flows/monthly-pass.yaml': replace('where: { view: zone_picker }', 'where: { view_name: zone_picker }'),
       'flows/account-signup.yaml': replace('event: signup_submitted', 'event: signup_submited'),
     });
     try {
@@ -70,8 +70,8 @@ describe('validate --against-state', () => {
       const run = await runValidate(fixture, { againstState: true, env: { PLUMBLINE_STATE_URL: db.url } });
       expect(run.lines).toEqual([
         'config/flows/account-signup.yaml:5:31 warning: steps[1].event: expected an event the rollups saw (2026-11-01 to 2026-11-28), found "signup_submited" (did you mean signup_submitted?)',
-        'config/flows/monthly-pass.yaml:6:48 warning: steps[1].where.screen_name: expected a parameter of screen_view the rollups saw (screen), found "screen_name"',
-        'config/flows/monthly-pass.yaml:7:71 warning: steps[2].where.screen[1]: expected a value of screen_view.screen the rollups saw (pass_intro, pay_review, signup_form, zone_picker), found "pay_review_v2" (did you mean pay_review?)',
+        'config/flows/monthly-pass.yaml:6:49 warning: steps[1].where.view_name: expected a parameter of screen_shown the rollups saw (view), found "view_name"',
+        'config/flows/monthly-pass.yaml:7:70 warning: steps[2].where.view[1]: expected a value of screen_shown.view the rollups saw (pass_intro, pay_review, signup_form, zone_picker), found "pay_review_v2" (did you mean pay_review?)',
         'config/flows/monthly-pass.yaml:12:9 warning: watch[0]: expected an event the rollups saw (2026-11-01 to 2026-11-28), found "zone_selected" (did you mean zone_selectd?)',
         'config: valid with 4 warnings (2 flows: account_signup, monthly_pass); compared with the rollups of 2026-11-01 to 2026-11-28',
       ]);
@@ -89,7 +89,7 @@ describe('validate --against-state', () => {
     try {
       const run = await runValidate(fixture, { againstState: true, days: 90, env: { PLUMBLINE_STATE_URL: db.url } });
       expect(run.lines).toEqual([
-        'config/flows/monthly-pass.yaml:7:71 warning: steps[2].where.screen[1]: expected a value of screen_view.screen the rollups saw (pass_intro, pay_review, signup_form, zone_picker), found "pay_review_v2" (did you mean pay_review?)',
+        'config/flows/monthly-pass.yaml:7:70 warning: steps[2].where.view[1]: expected a value of screen_shown.view the rollups saw (pass_intro, pay_review, signup_form, zone_picker), found "pay_review_v2" (did you mean pay_review?)',
         'config/flows/monthly-pass.yaml:8:76 warning: steps[3].where.order_id: expected a parameter declared under events.pass_purchase_result.params (outcome, amount_cents), found "order_id"',
         'config: valid with 2 warnings (2 flows: account_signup, monthly_pass); compared with the rollups of 2026-08-31 to 2026-11-28',
       ]);

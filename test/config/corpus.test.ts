@@ -52,8 +52,8 @@ const cases: Case[] = [
   },
   {
     name: 'a mapping where a value or a list of values belongs',
-    changes: { [PASS]: replace('where: { screen: pass_intro }', 'where: { screen: { in: [pass_intro] } }') },
-    problems: ['config/flows/monthly-pass.yaml:5:57 steps[0].where.screen: expected a string, a number, true or false or a list, found a mapping with the key in'],
+    changes: { [PASS]: replace('where: { view: pass_intro }', 'where: { view: { in: [pass_intro] } }') },
+    problems: ['config/flows/monthly-pass.yaml:5:56 steps[0].where.view: expected a string, a number, true or false or a list, found a mapping with the key in'],
   },
   {
     name: 'a value outside an enum of check options',
@@ -116,7 +116,7 @@ const cases: Case[] = [
   },
   {
     name: 'a misspelt key inside a flow-style mapping',
-    changes: { [PASS]: replace('{ name: zone, event: screen_view', '{ name: zone, evnt: screen_view') },
+    changes: { [PASS]: replace('{ name: zone, event: screen_shown', '{ name: zone, evnt: screen_shown') },
     problems: ['config/flows/monthly-pass.yaml:6:19 steps[1].evnt: expected one of the keys name, event, where, found unknown key "evnt" (did you mean event?)'],
   },
   {

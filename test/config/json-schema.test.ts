@@ -48,7 +48,7 @@ describe('what an editor sees', () => {
       checks: Record<string, Record<string, unknown>>;
       mutes: Array<Record<string, unknown>>;
     };
-    broken.steps[1] = { name: 'zone', evnt: 'screen_view' };
+    broken.steps[1] = { name: 'zone', evnt: 'screen_shown' };
     broken.checks.volume!.max_drop = 'thirty';
     delete broken.mutes[0]!.until;
     broken.mutes.push({ check: 'volume', until: '2026-1-5', reason: 'short' });

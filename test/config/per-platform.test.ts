@@ -8,7 +8,7 @@ describe('per-platform check options', () => {
     flow: 'monthly_pass',
     owner: 'growth',
     steps: [
-      { name: 'intro', event: 'screen_view' },
+      { name: 'intro', event: 'screen_shown' },
       { name: 'done', event: 'pass_purchase_result' },
     ],
     conversion_window: '30m',

@@ -33,12 +33,12 @@ const SMTP_ENV = 'PLUMBLINE_TEST_SMTP';
 const flow: FlowDefinition = {
   id: FLOW,
   owner: OWNER,
-  steps: ['intro', 'zone', 'rider', 'review', 'done'].map((name) => ({ name, event: 'screen_view', where: { screen: name } })),
+  steps: ['intro', 'zone', 'rider', 'review', 'done'].map((name) => ({ name, event: 'screen_shown', where: { view: name } })),
   conversionWindowSeconds: 1800,
   stepTimeCapSeconds: 300,
   entry: 'first_step_only',
   platforms: ['web', 'android', 'ios'],
-  events: ['screen_view'],
+  events: ['screen_shown'],
   contracts: {},
 };
 

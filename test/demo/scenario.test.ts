@@ -141,7 +141,7 @@ describe('the demo scenario matches the demo config', () => {
   it('identifies people by user id or device: web about half anonymous, apps mostly signed in', async () => {
     const shares = await rows<{ platform: string; anonymous: number }>(
       `select platform, avg((user_id is null)::int)::float8 as anonymous
-       from ${events('events_clean')} where event_name = 'screen_view' and props ->> 'screen' = 'pass_intro' group by platform`,
+       from ${events('events_clean')} where event_name = 'screen_shown' and props ->> 'view' = 'pass_intro' group by platform`,
     );
     const by = Object.fromEntries(shares.map((s) => [s.platform, s.anonymous]));
     expect(by.web).toBeGreaterThan(0.4);
@@ -163,7 +163,7 @@ describe('shape', () => {
   async function entrants(table: string): Promise<Map<string, number>> {
     const result = await rows<{ day: string; platform: string; people: string }>(
       `select ${localDay} as day, platform, count(distinct coalesce('u:' || user_id, 'd:' || device_id)) as people
-       from ${events(table)} where event_name = 'screen_view' and props ->> 'screen' = 'pass_intro' group by 1, 2`,
+       from ${events(table)} where event_name = 'screen_shown' and props ->> 'view' = 'pass_intro' group by 1, 2`,
     );
     return new Map(result.map((r) => [`${r.day} ${r.platform}`, Number(r.people)]));
   }
@@ -185,9 +185,9 @@ describe('shape', () => {
     const [row] = await rows<{ long_gaps: string; late: string; past_midnight: string; out_of_order: string; repeats: string; journeys: string }>(
       `with steps as (
          select coalesce('u:' || user_id, 'd:' || device_id) as person, platform, ${localDay} as day, occurred_at as at,
-                case when event_name = 'screen_view' then props ->> 'screen' else event_name end as step
+                case when event_name = 'screen_shown' then props ->> 'view' else event_name end as step
          from ${events('events_clean')}
-         where event_name in ('screen_view', 'pass_purchase_result')
+         where event_name in ('screen_shown', 'pass_purchase_result')
        ),
        per as (
          select person, platform,
@@ -271,10 +271,10 @@ describe('injected incidents', () => {
   it('android 7.4.0 sends no rider_details, other versions and the clean run do', async () => {
     const counts = await rows<{ table: string; version: string; zone: string; rider: string }>(
       `select t as table, app_version as version,
-              count(*) filter (where props ->> 'screen' = 'zone_picker') as zone,
-              count(*) filter (where props ->> 'screen' = 'rider_details') as rider
+              count(*) filter (where props ->> 'view' = 'zone_picker') as zone,
+              count(*) filter (where props ->> 'view' = 'rider_details') as rider
        from (select 'events' as t, * from ${events('events')} union all select 'clean', * from ${events('events_clean')}) e
-       where platform = 'Android' and event_name = 'screen_view' and ${localDay} >= '2026-10-13'
+       where platform = 'Android' and event_name = 'screen_shown' and ${localDay} >= '2026-10-13'
        group by 1, 2`,
     );
     const find = (table: string, version: string) => counts.find((c) => c.table === table && c.version === version)!;

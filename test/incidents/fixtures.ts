@@ -63,7 +63,7 @@ export interface DraftOptions {
 }
 
 export function finding(o: DraftOptions): Finding {
-  const event = o.event ?? 'screen_view';
+  const event = o.event ?? 'screen_shown';
   const since = o.since ?? o.day;
   return {
     check: o.param ? 'schema' : 'volume',
@@ -90,7 +90,7 @@ export function finding(o: DraftOptions): Finding {
 export function draft(o: DraftOptions): IncidentDraft {
   const platform = o.platform ?? 'android';
   const version = o.version ?? '7.4.0';
-  const subject = o.param ? `${o.event ?? 'screen_view'}.${o.param}` : (o.subject ?? 'rider');
+  const subject = o.param ? `${o.event ?? 'screen_shown'}.${o.param}` : (o.subject ?? 'rider');
   return {
     fingerprint: o.fingerprint ?? `${FLOW}|release|${subject}|${platform}|${version}`,
     flow: FLOW,

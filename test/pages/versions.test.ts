@@ -15,15 +15,15 @@ const FLOW: FlowDefinition = {
   id: 'monthly_pass',
   owner: 'growth-analytics',
   steps: [
-    { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-    { name: 'zone', event: 'screen_view', where: { screen: 'zone_picker' } },
-    { name: 'rider', event: 'screen_view', where: { screen: 'rider_details' } },
+    { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+    { name: 'zone', event: 'screen_shown', where: { view: 'zone_picker' } },
+    { name: 'rider', event: 'screen_shown', where: { view: 'rider_details' } },
   ],
   conversionWindowSeconds: 1800,
   stepTimeCapSeconds: 300,
   entry: 'first_step_only',
   platforms: ['web', 'android', 'ios'],
-  events: ['screen_view', 'zone_selected'],
+  events: ['screen_shown', 'zone_selected'],
   contracts: {},
 };
 const DAYS = ['2026-10-14', '2026-10-15', '2026-10-16'];

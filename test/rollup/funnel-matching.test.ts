@@ -22,8 +22,8 @@ function flow(entry: FlowDefinition['entry']): FlowDefinition {
     id: 'pass',
     owner: 'team',
     steps: [
-      { name: 'intro', event: 'screen_view', where: { screen: 'intro' } },
-      { name: 'zone', event: 'screen_view', where: { screen: ['zone', 'zone_v2'] } },
+      { name: 'intro', event: 'screen_shown', where: { view: 'intro' } },
+      { name: 'zone', event: 'screen_shown', where: { view: ['zone', 'zone_v2'] } },
       { name: 'pay', event: 'tap_pay', where: {} },
       { name: 'done', event: 'purchase', where: { outcome: 'approved', test: false } },
     ],
@@ -32,13 +32,13 @@ function flow(entry: FlowDefinition['entry']): FlowDefinition {
     stepTimeCapSeconds: 240,
     entry,
     platforms: ['web', 'android', 'ios'],
-    events: ['screen_view', 'tap_pay', 'purchase'],
+    events: ['screen_shown', 'tap_pay', 'purchase'],
     contracts: {},
   };
 }
 
 const eventArb = fc.oneof(
-  fc.record({ name: fc.constant('screen_view'), props: fc.record({ screen: fc.constantFrom('intro', 'zone', 'zone_v2', 'home') }) }),
+  fc.record({ name: fc.constant('screen_shown'), props: fc.record({ view: fc.constantFrom('intro', 'zone', 'zone_v2', 'home') }) }),
   fc.record({ name: fc.constant('tap_pay'), props: fc.constant({}) }),
   fc.record({
     name: fc.constant('purchase'),

@@ -1,6 +1,6 @@
 /**
  * Property test for flows whose steps can match the same event (a step on
- * any `screen_view`, a later one on one screen): the flow statement then
+ * any `screen_shown`, a later one on one screen): the flow statement then
  * repeats each row once per matching step instead of using one CASE. Funnel
  * and step counts are compared with the brute-force references in
  * test/helpers/reference.ts, as in funnel-matching.test.ts.
@@ -23,16 +23,16 @@ function flow(entry: FlowDefinition['entry']): FlowDefinition {
     id: 'browse',
     owner: 'team',
     steps: [
-      { name: 'any_screen', event: 'screen_view', where: {} },
-      { name: 'zone', event: 'screen_view', where: { screen: 'zone' } },
-      { name: 'zone_again', event: 'screen_view', where: { screen: ['zone', 'home'] } },
+      { name: 'any_screen', event: 'screen_shown', where: {} },
+      { name: 'zone', event: 'screen_shown', where: { view: 'zone' } },
+      { name: 'zone_again', event: 'screen_shown', where: { view: ['zone', 'home'] } },
       { name: 'pay', event: 'tap_pay', where: {} },
     ],
     conversionWindowSeconds: 600,
     stepTimeCapSeconds: 240,
     entry,
     platforms: ['web', 'android', 'ios'],
-    events: ['screen_view', 'tap_pay'],
+    events: ['screen_shown', 'tap_pay'],
     contracts: {},
   };
 }
@@ -46,8 +46,8 @@ const journeyArb = fc.record({
   startMinute: fc.integer({ min: -20, max: 24 * 60 + 10 }),
   events: fc.array(
     fc.record({
-      name: fc.constantFrom('screen_view', 'screen_view', 'tap_pay'),
-      screen: fc.constantFrom('zone', 'home', 'intro'),
+      name: fc.constantFrom('screen_shown', 'screen_shown', 'tap_pay'),
+      view: fc.constantFrom('zone', 'home', 'intro'),
       gapMinutes: fc.integer({ min: -1, max: 5 }),
     }),
     { minLength: 1, maxLength: 6 },
@@ -66,7 +66,7 @@ function toRows(journeys: Array<typeof journeyArb extends fc.Arbitrary<infer T> 
         device: journey.device,
         platform: journey.platform,
         version: journey.version,
-        props: event.name === 'screen_view' ? { screen: event.screen } : {},
+        props: event.name === 'screen_shown' ? { view: event.view } : {},
         country: journey.country,
         channel: 'direct',
       };

@@ -17,14 +17,14 @@ const flow: FlowDefinition = {
   id: 'pass',
   owner: 'team',
   steps: [
-    { name: 'intro', event: 'screen_view', where: { screen: 'intro' } },
+    { name: 'intro', event: 'screen_shown', where: { view: 'intro' } },
     { name: 'done', event: 'purchase', where: {} },
   ],
   conversionWindowSeconds: 3600,
   stepTimeCapSeconds: 600,
   entry: 'first_step_only',
   platforms: ['web', 'android', 'ios'],
-  events: ['screen_view', 'purchase'],
+  events: ['screen_shown', 'purchase'],
   contracts: {},
 };
 
@@ -56,20 +56,20 @@ describe('rollupDay', () => {
     // the US Energy Policy Act of 2005 rules as encoded in the IANA tz database.
     await insertEvents(warehouse.pool, warehouse.schema, [
       // 2026-03-07 (EST): the last instant before local midnight belongs to the 7th.
-      event('2026-03-08T04:59:59Z', 'screen_view', 'a', { screen: 'intro' }),
+      event('2026-03-08T04:59:59Z', 'screen_shown', 'a', { view: 'intro' }),
       // 2026-03-08: starts 05:00Z (EST midnight), ends 04:00Z on the 9th (EDT midnight): 23 hours.
-      event('2026-03-08T05:00:00Z', 'screen_view', 'b', { screen: 'intro' }),
+      event('2026-03-08T05:00:00Z', 'screen_shown', 'b', { view: 'intro' }),
       event('2026-03-08T05:20:00Z', 'purchase', 'b'),
-      event('2026-03-08T07:30:00Z', 'screen_view', 'c', { screen: 'intro' }), // 03:30 EDT, after the jump
-      event('2026-03-09T03:59:59Z', 'screen_view', 'd', { screen: 'intro' }), // 23:59:59 EDT
+      event('2026-03-08T07:30:00Z', 'screen_shown', 'c', { view: 'intro' }), // 03:30 EDT, after the jump
+      event('2026-03-09T03:59:59Z', 'screen_shown', 'd', { view: 'intro' }), // 23:59:59 EDT
       event('2026-03-09T04:10:00Z', 'purchase', 'd'), // after midnight, inside d's conversion window
-      event('2026-03-09T04:00:00Z', 'screen_view', 'e', { screen: 'intro' }), // 00:00 on the 9th
+      event('2026-03-09T04:00:00Z', 'screen_shown', 'e', { view: 'intro' }), // 00:00 on the 9th
       // 2026-11-01: starts 04:00Z (EDT midnight), ends 05:00Z on the 2nd (EST midnight): 25 hours.
-      event('2026-11-01T04:00:00Z', 'screen_view', 'f', { screen: 'intro' }),
-      event('2026-11-01T05:30:00Z', 'screen_view', 'g', { screen: 'intro' }), // 01:30 EDT
-      event('2026-11-01T06:30:00Z', 'screen_view', 'h', { screen: 'intro' }), // 01:30 EST, the repeated hour
-      event('2026-11-02T04:59:59Z', 'screen_view', 'i', { screen: 'intro' }, 'iOS'), // 23:59:59 EST
-      event('2026-11-02T05:00:00Z', 'screen_view', 'j', { screen: 'intro' }), // the 2nd
+      event('2026-11-01T04:00:00Z', 'screen_shown', 'f', { view: 'intro' }),
+      event('2026-11-01T05:30:00Z', 'screen_shown', 'g', { view: 'intro' }), // 01:30 EDT
+      event('2026-11-01T06:30:00Z', 'screen_shown', 'h', { view: 'intro' }), // 01:30 EST, the repeated hour
+      event('2026-11-02T04:59:59Z', 'screen_shown', 'i', { view: 'intro' }, 'iOS'), // 23:59:59 EST
+      event('2026-11-02T05:00:00Z', 'screen_shown', 'j', { view: 'intro' }), // the 2nd
     ]);
   });
   afterAll(async () => {
@@ -136,13 +136,13 @@ describe('rollupDay', () => {
     await rollupDay(ctx, '2026-03-08');
     expect(await snapshot()).toEqual(first);
 
-    await insertEvents(warehouse.pool, warehouse.schema, [event('2026-03-08T12:00:00Z', 'screen_view', 'late', { screen: 'intro' })]);
+    await insertEvents(warehouse.pool, warehouse.schema, [event('2026-03-08T12:00:00Z', 'screen_shown', 'late', { view: 'intro' })]);
     await rollupDay(ctx, '2026-03-08');
     const after = await snapshot();
     const android = (after.day_status as Array<{ platform: string; events: string; previous_events: string }>).find((r) => r.platform === 'android')!;
     expect(Number(android.events)).toBe(5);
     expect(Number(android.previous_events)).toBe(4); // the restatement stays visible to the freshness check
     const counts = after.event_days as Array<{ event: string; version: string; dimension: string; people: string }>;
-    expect(Number(counts.find((r) => r.event === 'screen_view' && r.version === '*' && r.dimension === '')!.people)).toBe(4);
+    expect(Number(counts.find((r) => r.event === 'screen_shown' && r.version === '*' && r.dimension === '')!.people)).toBe(4);
   });
 });

@@ -92,12 +92,12 @@ function eventsOf(day: string): RawEvent[] {
     for (let person = 0; person < 3; person++) {
       events.push({
         at: new Date(`${day}T17:0${person}:00Z`),
-        name: 'screen_view',
+        name: 'screen_shown',
         user: `${platform}-${day}-${person}`,
         device: null,
         platform: raw,
         version: platform === 'web' ? null : '7.1.0',
-        props: { screen: 'pass_intro' },
+        props: { view: 'pass_intro' },
         country: 'US',
         channel: 'direct',
       });
