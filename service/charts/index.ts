@@ -18,6 +18,7 @@ import { renderAsync } from '@resvg/resvg-js';
 import { View, parse, type Spec } from 'vega';
 import type { Day, ExcerptPoint } from '../../checks/types.js';
 import { cleanText } from '../delivery/text.js';
+import { CHART_BACKGROUND, platformColour } from './colours.js';
 
 const FONT = 'DejaVu Sans, Liberation Sans, Arial, sans-serif';
 const TITLE_MAX = 90;
@@ -32,7 +33,7 @@ export interface Chart {
 export const CHART_WIDTH = 560;
 
 const baseConfig = {
-  background: 'white',
+  background: CHART_BACKGROUND,
   padding: 6,
   autosize: { type: 'fit', contains: 'padding' },
   config: {
@@ -93,7 +94,7 @@ export function dailySeriesChart(points: readonly ExcerptPoint[], options: { tit
         {
           type: 'symbol',
           from: { data: 'flagged' },
-          encode: { enter: { x: { scale: 'x', field: 'day' }, y: { scale: 'y', field: 'value' }, size: { value: 60 }, fill: { value: '#d64545' }, stroke: { value: 'white' } } },
+          encode: { enter: { x: { scale: 'x', field: 'day' }, y: { scale: 'y', field: 'value' }, size: { value: 60 }, fill: { value: '#d64545' }, stroke: { value: CHART_BACKGROUND } } },
         },
       ],
     },
@@ -124,7 +125,7 @@ export function weeklyConversionChart(points: readonly WeeklyPoint[], options: {
       scales: [
         { name: 'x', type: 'utc', domain: { data: 'points', field: 'week' }, range: 'width', padding: 12 },
         { name: 'y', type: 'linear', domain: { data: 'points', field: 'conversion' }, range: 'height', nice: true, zero: false },
-        { name: 'color', type: 'ordinal', domain: platforms, range: { scheme: 'tableau10' } },
+        { name: 'color', type: 'ordinal', domain: platforms, range: platforms.map(platformColour) },
       ],
       axes: [
         { orient: 'bottom', scale: 'x', format: '%b %d', formatType: 'utc', values: weeks.map((week) => Date.parse(`${week}T00:00:00Z`)), labelOverlap: true },
@@ -167,6 +168,6 @@ export async function renderSvg(chart: Chart): Promise<string> {
 /** The chart as a PNG image, at `scale` times its CSS size for sharp text on high-density screens. */
 export async function renderPng(chart: Chart, scale = 2): Promise<Buffer> {
   const svg = await renderSvg(chart);
-  const image = await renderAsync(svg, { fitTo: { mode: 'zoom', value: scale }, background: 'white', font: { loadSystemFonts: true, defaultFontFamily: 'DejaVu Sans' } });
+  const image = await renderAsync(svg, { fitTo: { mode: 'zoom', value: scale }, background: CHART_BACKGROUND, font: { loadSystemFonts: true, defaultFontFamily: 'DejaVu Sans' } });
   return image.asPng();
 }
