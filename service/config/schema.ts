@@ -17,6 +17,10 @@ export const SECRET_REFERENCE = /^\$\{[A-Z_][A-Z0-9_]*(:-[^}]*)?\}$/;
 /** The keys read through `resolveReference`: the only places an `${ENV}` reference means anything. */
 export const REFERENCE_KEYS = ['warehouse.url', 'state.url', 'delivery.chat.webhook_url', 'delivery.email.smtp_url'] as const;
 
+/** The chat payload formats plumbline can post (`service/delivery/chat.ts` renders each); the first is the default. */
+export const CHAT_FORMAT_IDS = ['slack'] as const;
+export type ChatFormatId = (typeof CHAT_FORMAT_IDS)[number];
+
 /** Keys renamed since they were first published, by full key: `validate` points from the old name to the new one. */
 export const RENAMED_KEYS: Readonly<Record<string, string>> = { 'incidents.renotify_cooldown': 'repeat_after' };
 
@@ -142,11 +146,15 @@ export const mainSchema = z
       .strictObject({
         chat: z
           .strictObject({
+            format: z
+              .enum(CHAT_FORMAT_IDS)
+              .default(CHAT_FORMAT_IDS[0])
+              .describe('Payload format of the chat webhook: slack (a Slack incoming webhook, Block Kit sections), the only one so far.'),
             webhook_url: secretReference('webhook URLs are secrets')
               .optional()
               .describe('${ENV} reference to the chat webhook; without it payloads are written to outbox_dir.'),
           })
-          .default({}),
+          .default({ format: CHAT_FORMAT_IDS[0] }),
         email: z
           .strictObject({
             smtp_url: secretReference('SMTP URLs carry credentials')
@@ -159,7 +167,7 @@ export const mainSchema = z
         max_attempts: z.number().int().min(1).max(50).default(8).describe('Failed sends before a message is parked for a person to look at.'),
         hide_values: z.boolean().default(false).describe('Never show parameter values in messages, pages or digests.'),
       })
-      .default({ chat: {}, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false })
+      .default({ chat: { format: CHAT_FORMAT_IDS[0] }, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false })
       .describe('Chat messages per incident and the weekly e-mail digest.'),
     schedule: z
       .strictObject({

@@ -1,17 +1,36 @@
 /**
- * The chat message for an incident event, as an incoming-webhook payload with
- * a block layout. Client text goes through `chatText` (cleaned, clipped,
- * escaped); the owner's mention comes from reviewed config and is the only
- * mention a message can carry. Link unfurling is off so no data-driven address
- * gets a preview.
+ * The chat message for an incident event. What a message says (`ChatInput`)
+ * is the same for every chat service; a `ChatFormat` turns it into the JSON
+ * body one service's incoming webhook accepts. Supported: `slack`, a Slack
+ * incoming webhook with Block Kit sections (the default). A second format is
+ * one more `ChatFormat` in `CHAT_FORMATS` and its id in `CHAT_FORMAT_IDS`
+ * (`service/config/schema.ts`), which `delivery.chat.format` chooses from.
+ *
+ * In the `slack` format, client text goes through `chatText` (cleaned,
+ * clipped, escaped); the owner's mention comes from reviewed config and is the
+ * only mention a message can carry. Link unfurling is off so no data-driven
+ * address gets a preview.
  */
 import type { IncomingWebhookSendArguments } from '@slack/webhook';
 import type { Severity } from '../../checks/types.js';
+import type { ChatFormatId } from '../config/schema.js';
 import type { Incident, IncidentEvent } from '../incidents/types.js';
+import { RESOLVED_MARK, SEVERITY_MARK, severityLabel } from './marks.js';
 import type { IncidentPresentation } from './present.js';
 import { chatText, cleanText, escapeChat, fitChat } from './text.js';
 
-export type ChatMessage = IncomingWebhookSendArguments & { text: string; blocks: NonNullable<IncomingWebhookSendArguments['blocks']> };
+/** The JSON body posted to the chat webhook; `text` is the one-line fallback every format carries. */
+export interface ChatPayload {
+  text: string;
+}
+
+/** One chat service's message layout. */
+export interface ChatFormat<Payload extends ChatPayload = ChatPayload> {
+  id: ChatFormatId;
+  render(input: ChatInput): Payload;
+}
+
+export type SlackMessage = IncomingWebhookSendArguments & { text: string; blocks: NonNullable<IncomingWebhookSendArguments['blocks']> };
 
 /** Section text is limited to 3,000 characters and a field to 2,000 (Slack Block Kit reference, "Section block"). */
 const SECTION_MAX = 3000;
@@ -20,8 +39,6 @@ const FIELD_MAX = 2000;
 const HEADLINE_MAX = 200;
 const SENTENCE_MAX = 600;
 const SYMPTOM_MAX = 300;
-
-const SEVERITY_MARK: Record<Severity, string> = { page: ':red_circle:', warn: ':large_orange_circle:', note: ':white_circle:' };
 
 /** A configured mention such as `<!subteam^S0GROWTH>` or `<@U024BE7LH>`; anything else is shown as text. */
 const MENTION = /^<[@!#][^<>\s]*>$/;
@@ -53,13 +70,13 @@ function link(url: string, text: string): string {
   return `<${url.replace(/\|/g, '%7C').replace(/>/g, '%3E').replace(/</g, '%3C')}|${escapeChat(text)}>`;
 }
 
-export function renderChatMessage(input: ChatInput): ChatMessage {
+function renderSlack(input: ChatInput): SlackMessage {
   const { event, incident, presentation: p } = input;
   const headline = chatText(p.headline, HEADLINE_MAX);
   const flow = chatText(incident.flow, 80);
   const where = chatText(p.where, 120);
   const owner = ownerText(incident.owner, input.mention);
-  const blocks: ChatMessage['blocks'] = [];
+  const blocks: SlackMessage['blocks'] = [];
   let fallback: string;
   if (event === 'resolved') {
     const lasted = `${incident.openedDay} to ${incident.lastSeenDay}, seen on ${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'}`;
@@ -67,17 +84,13 @@ export function renderChatMessage(input: ChatInput): ChatMessage {
       incident.resolution === 'withdrawn'
         ? `Judging ${incident.resolvedDay} again no longer shows it.`
         : `Not seen on ${input.resolveAfterDays} judged day${input.resolveAfterDays === 1 ? '' : 's'} after ${incident.lastSeenDay}.`;
-    fallback = `Resolved: ${headline} (${flow}, ${where})`;
-    blocks.push(section(`:white_check_mark: *Resolved* · ${flow} · ${where}\n*${headline}*`));
+    fallback = `resolved ${RESOLVED_MARK}: ${headline} (${flow}, ${where})`;
+    blocks.push(section(`*resolved* ${RESOLVED_MARK} · ${flow} · ${where}\n*${headline}*`));
     blocks.push(section(`${why} It lasted ${lasted}. Owner: ${chatText(incident.owner, 80)}.`));
   } else {
-    const mark = SEVERITY_MARK[incident.severity];
-    const what =
-      event === 'opened'
-        ? `*Opened* · ${incident.severity}`
-        : `*Severity raised to ${incident.severity}*${input.previousSeverity ? ` (was ${input.previousSeverity})` : ''}`;
-    fallback = `[${incident.severity}] ${event === 'opened' ? 'Opened' : 'Severity raised'}: ${headline} (${flow}, ${where})`;
-    blocks.push(section(`${mark} ${what} · ${flow} · ${where}\n*${headline}*`));
+    const what = event === 'opened' ? 'opened' : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
+    fallback = `${severityLabel(incident.severity)} ${what}: ${headline} (${flow}, ${where})`;
+    blocks.push(section(`*${incident.severity}* ${SEVERITY_MARK[incident.severity]} · ${what} · ${flow} · ${where}\n*${headline}*`));
     blocks.push(section(`Owner: ${owner}`));
     const fields = [
       `*Since*\n${incident.since} (${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'})`,
@@ -101,6 +114,12 @@ export function renderChatMessage(input: ChatInput): ChatMessage {
   blocks.push(section(link(input.url, `Open incident ${incident.id}`)));
   return { text: fitChat(fallback, 300), blocks, unfurl_links: false, unfurl_media: false };
 }
+
+/** A Slack incoming webhook, Block Kit sections (Slack API reference, "Sending messages using incoming webhooks"). */
+export const slackFormat: ChatFormat<SlackMessage> = { id: 'slack', render: renderSlack };
+
+/** Every supported format by id: the type demands one for each id `delivery.chat.format` accepts. */
+export const CHAT_FORMATS: Record<ChatFormatId, ChatFormat> = { slack: slackFormat };
 
 /** One plain line for the CLI and the status page. */
 export function summaryLine(event: IncidentEvent, incident: Incident, presentation: IncidentPresentation): string {

@@ -9,6 +9,7 @@ import { formatCount, formatPercent } from '../../checks/messages.js';
 import { CHART_WIDTH, dailySeriesChart, weeklyConversionChart, type Chart } from '../charts/index.js';
 import type { Digest, DigestFlow, DigestIncident, Rate } from './digest-data.js';
 import { BASELINE_WEEKS } from './digest-data.js';
+import { RESOLVED_MARK, severityLabel } from './marks.js';
 import { cleanText, escapeHtml, htmlText } from './text.js';
 
 /** Incident charts per digest, so a bad week does not make a huge message. */
@@ -88,9 +89,9 @@ function table(headers: string[], rows: string[][], numeric: boolean[]): string 
 function incidentHtml(item: DigestIncident, images: ReadonlyMap<string, string>): string {
   const { incident, presentation: p } = item;
   const color = css.severity[incident.severity] ?? '#52606d';
-  const status = incident.status === 'resolved' ? `resolved ${escapeHtml(incident.resolvedDay ?? '')}` : escapeHtml(incident.status);
+  const status = incident.status === 'resolved' ? `resolved ${RESOLVED_MARK} ${escapeHtml(incident.resolvedDay ?? '')}` : escapeHtml(incident.status);
   const lines = [
-    `<p style="margin:10px 0 2px"><strong style="color:${color}">${escapeHtml(incident.severity)}</strong> · <a href="${escapeHtml(item.url)}">${htmlText(p.headline, NAME_MAX)}</a></p>`,
+    `<p style="margin:10px 0 2px"><strong style="color:${color}">${escapeHtml(severityLabel(incident.severity))}</strong> · <a href="${escapeHtml(item.url)}">${htmlText(p.headline, NAME_MAX)}</a></p>`,
     `<p style="margin:0;${css.muted}">${htmlText(p.where, 60)} · since ${escapeHtml(incident.since)} · seen on ${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'} · ${status}</p>`,
   ];
   if (p.observed !== null && p.expected !== null) {
@@ -184,8 +185,8 @@ export function renderDigest(digest: Digest, images: ReadonlyMap<string, string>
 function textIncident(item: DigestIncident): string[] {
   const { incident, presentation: p } = item;
   const lines = [
-    `  [${incident.severity}] ${cleanText(p.headline, NAME_MAX)}`,
-    `    ${cleanText(p.where, 60)}, since ${incident.since}, ${incident.daysSeen} judged day(s), ${incident.status === 'resolved' ? `resolved ${incident.resolvedDay}` : incident.status}`,
+    `  ${severityLabel(incident.severity)} ${cleanText(p.headline, NAME_MAX)}`,
+    `    ${cleanText(p.where, 60)}, since ${incident.since}, ${incident.daysSeen} judged day(s), ${incident.status === 'resolved' ? `resolved ${RESOLVED_MARK} ${incident.resolvedDay}` : incident.status}`,
   ];
   if (p.observed !== null && p.expected !== null) lines.push(`    observed ${cleanText(p.observed, 40)}, expected ${cleanText(p.expected, 60)}`);
   lines.push(`    likely cause: ${cleanText(p.cause.label, 40)} (${p.cause.confidence}). ${cleanText(p.cause.sentence, MESSAGE_MAX)}`, `    ${item.url}`);

@@ -8,7 +8,7 @@ import type pg from 'pg';
 import { quoteIdent } from '../db/sql.js';
 import type { Db } from '../incidents/store.js';
 import type { IncidentEvent } from '../incidents/types.js';
-import type { ChatMessage } from './chat.js';
+import type { ChatPayload } from './chat.js';
 
 export type OutboxState = 'pending' | 'sending' | 'sent' | 'parked';
 
@@ -19,7 +19,7 @@ export interface OutboxMessage {
   event: IncidentEvent;
   day: string;
   idempotencyKey: string;
-  payload: ChatMessage;
+  payload: ChatPayload;
   summary: string;
   state: OutboxState;
   attempts: number;
@@ -46,7 +46,7 @@ export function idempotencyKey(incidentId: string, event: IncidentEvent, day: st
 export async function enqueueChat(
   client: pg.ClientBase,
   schema: string,
-  message: { incidentId: string; event: IncidentEvent; day: string; payload: ChatMessage; summary: string },
+  message: { incidentId: string; event: IncidentEvent; day: string; payload: ChatPayload; summary: string },
   now: Date,
 ): Promise<boolean> {
   const { rowCount } = await client.query({

@@ -158,7 +158,10 @@ export async function drainOutbox(rt: SenderRuntime, options: DrainOptions = {})
   return result;
 }
 
-/** Posts through the incoming-webhook client, adding the idempotency key and reading `Retry-After` from the answer. */
+/**
+ * Posts the stored payload, whatever its `ChatFormat`, as the JSON body through the incoming-webhook client
+ * (which sends it as given), adding the idempotency key and reading `Retry-After` from the answer.
+ */
 async function post(url: string, message: OutboxMessage, timeoutMs: number, now: () => Date): Promise<PostOutcome> {
   let retryAfter: string | null = null;
   const webhook = new IncomingWebhook(url, {

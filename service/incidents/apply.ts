@@ -17,7 +17,7 @@ import type { IncidentDraft } from '../../checks/causes/types.js';
 import type { Day, Severity } from '../../checks/types.js';
 import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
-import { renderChatMessage, summaryLine } from '../delivery/chat.js';
+import { CHAT_FORMATS, summaryLine } from '../delivery/chat.js';
 import { enqueueChat, withdrawPending } from '../delivery/outbox.js';
 import { presentIncident } from '../delivery/present.js';
 import { loadValuePolicy, paramKeysOf } from '../delivery/privacy.js';
@@ -31,6 +31,7 @@ export function incidentPolicy(main: MainConfig): IncidentPolicy {
     publicUrl: main.http.public_url,
     owners: main.owners,
     hideValues: main.delivery.hide_values,
+    chatFormat: main.delivery.chat.format,
   };
 }
 
@@ -250,7 +251,7 @@ async function queue(client: pg.ClientBase, schema: string, event: IncidentEvent
   const sighting = (await latestSightings(client, schema, [incident.id])).get(incident.id);
   const values = await loadValuePolicy(client, schema, policy.hideValues, paramKeysOf(sighting?.symptoms ?? []), incident.since, incident.lastSeenDay);
   const presentation = presentIncident(incident, sighting, values);
-  const payload = renderChatMessage({
+  const payload = CHAT_FORMATS[policy.chatFormat].render({
     event,
     incident,
     presentation,

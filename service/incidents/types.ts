@@ -4,6 +4,7 @@
  */
 import type { Cause } from '../../checks/causes/types.js';
 import type { Day, Finding, Severity } from '../../checks/types.js';
+import type { ChatFormatId } from '../config/schema.js';
 
 export type IncidentStatus = 'open' | 'ongoing' | 'resolved';
 /** What a chat message announces. */
@@ -61,6 +62,8 @@ export interface IncidentPolicy {
   owners: Record<string, { chat_mention?: string; email: string[] }>;
   /** Never show parameter values. */
   hideValues: boolean;
+  /** How chat messages are laid out (`delivery.chat.format`). */
+  chatFormat: ChatFormatId;
 }
 
 export const SEVERITY_RANK: Record<Severity, number> = { note: 1, warn: 2, page: 3 };

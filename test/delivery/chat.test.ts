@@ -6,7 +6,8 @@
  * Also: escaping per the chat markup's rules, and values hidden by policy.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { renderChatMessage, type ChatMessage } from '../../service/delivery/chat.js';
+import { CHAT_FORMAT_IDS, mainSchema } from '../../service/config/schema.js';
+import { CHAT_FORMATS, slackFormat, type SlackMessage } from '../../service/delivery/chat.js';
 import { presentIncident } from '../../service/delivery/present.js';
 import { HIDE_ALL_VALUES, loadValuePolicy, type ValuePolicy } from '../../service/delivery/privacy.js';
 import { chatText, cleanText, clip, escapeChat, fitChat } from '../../service/delivery/text.js';
@@ -15,6 +16,7 @@ import { loadIncident } from '../../service/incidents/store.js';
 import { incidentUrl, type Incident, type Sighting } from '../../service/incidents/types.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
 import { MENTION, POLICY, draft, judge, outboxRows, type DraftOptions } from '../incidents/fixtures.js';
+import { testMain } from './fixtures.js';
 import { FORBIDDEN_CHARS, HOSTILE, STORABLE_HOSTILE } from './hostile.js';
 
 const SHOW_ALL: ValuePolicy = { visible: () => true };
@@ -51,10 +53,10 @@ function incidentFrom(options: DraftOptions): { incident: Incident; sighting: Si
   return { incident, sighting: { incidentId: incident.id, day: d.day, since: d.since, severity: d.severity, muted: false, title: d.title, cause: d.cause, symptoms: d.symptoms } };
 }
 
-function render(options: DraftOptions, event: 'opened' | 'resolved' = 'opened', values: ValuePolicy = SHOW_ALL): { message: ChatMessage; incident: Incident } {
+function render(options: DraftOptions, event: 'opened' | 'resolved' = 'opened', values: ValuePolicy = SHOW_ALL): { message: SlackMessage; incident: Incident } {
   const { incident, sighting } = incidentFrom(options);
   const resolved: Incident = event === 'resolved' ? { ...incident, status: 'resolved', resolvedDay: '2026-11-21', resolution: 'clean_days' } : incident;
-  const message = renderChatMessage({
+  const message = slackFormat.render({
     event,
     incident: resolved,
     presentation: presentIncident(resolved, sighting, values),
@@ -71,7 +73,7 @@ interface TextObject {
 }
 
 /** Every mrkdwn text of a message, with its limit (Slack Block Kit reference: section text 3,000, field 2,000). */
-function texts(message: ChatMessage): TextObject[] {
+function texts(message: SlackMessage): TextObject[] {
   const out: TextObject[] = [{ text: message.text, limit: 3000 }];
   for (const block of message.blocks as Array<{ text?: { text: string }; fields?: Array<{ text: string }> }>) {
     if (block.text) out.push({ text: block.text.text, limit: 3000 });
@@ -80,7 +82,7 @@ function texts(message: ChatMessage): TextObject[] {
   return out;
 }
 
-function expectInert(message: ChatMessage, incident: Incident, input: string): void {
+function expectInert(message: SlackMessage, incident: Incident, input: string): void {
   const allowed = new Set([MENTION, `<${incidentUrl(POLICY.publicUrl, incident.id)}|Open incident ${incident.id}>`]);
   for (const { text, limit } of texts(message)) {
     const context = `input ${JSON.stringify(input.slice(0, 120))}\nrendered ${JSON.stringify(text.slice(0, 400))}`;
@@ -171,6 +173,38 @@ describe('chat message', () => {
   });
 });
 
+describe('chat marks', () => {
+  const lead = (message: SlackMessage) => texts(message)[1]!.text.split('\n')[0];
+  /** Emoji shortcodes (`:name:`) and pictographs: the marks are plain text of our own. */
+  const EMOJI = /:[a-z0-9_+-]+:|\p{Extended_Pictographic}/u;
+
+  it.each([
+    ['page', '▮▮▮'],
+    ['warn', '▮▮▯'],
+    ['note', '▮▯▯'],
+  ] as const)('an opened %s incident leads with its severity word, then its gauge', (severity, gauge) => {
+    const { message } = render({ day: '2026-11-18', severity, title: 'rider step stopped on android 7.4.0' });
+    expect(lead(message)).toMatch(new RegExp(`^\\*${severity}\\* ${gauge} · opened · monthly_pass · `));
+    expect(message.text).toMatch(new RegExp(`^${severity} ${gauge} opened: rider step stopped`));
+    for (const { text } of texts(message)) expect(text).not.toMatch(EMOJI);
+  });
+
+  it('a resolved incident leads with "resolved" and the emptied gauge', () => {
+    const { message } = render({ day: '2026-11-18', severity: 'page', title: 'rider step stopped on android 7.4.0' }, 'resolved');
+    expect(lead(message)).toMatch(/^\*resolved\* ▯▯▯ · monthly_pass · /);
+    expect(message.text).toMatch(/^resolved ▯▯▯: rider step stopped/);
+    for (const { text } of texts(message)) expect(text).not.toMatch(EMOJI);
+  });
+
+  it('has a format for every id delivery.chat.format accepts, slack the default', () => {
+    expect(Object.keys(CHAT_FORMATS)).toEqual([...CHAT_FORMAT_IDS]);
+    expect(Object.values(CHAT_FORMATS).map((format) => format.id)).toEqual([...CHAT_FORMAT_IDS]);
+    expect(testMain().delivery.chat.format).toBe('slack');
+    const noDelivery = { timezone: 'America/New_York', warehouse: { events_table: 'transit.events', platforms: { web: ['web'] } } };
+    expect(mainSchema.parse(noDelivery).delivery.chat.format).toBe('slack');
+  });
+});
+
 describe('chat message from the incident tables', () => {
   let db: TestSchema;
   beforeAll(async () => {
@@ -197,7 +231,7 @@ describe('chat message from the incident tables', () => {
     expect(rows).toHaveLength(2);
     for (const row of rows) {
       const { incident } = (await loadIncident(db.pool, db.schema, row.incident_id))!;
-      expectInert(row.payload as ChatMessage, incident, hostile);
+      expectInert(row.payload as SlackMessage, incident, hostile);
     }
     const fare = rows.find((row) => JSON.stringify(row.payload).includes('fare_zone'))!;
     const rider = rows.find((row) => JSON.stringify(row.payload).includes('rider_ref'))!;

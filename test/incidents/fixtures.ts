@@ -22,6 +22,7 @@ export const POLICY: IncidentPolicy = {
   publicUrl: 'http://plumbline.metropass.example/',
   owners: { [OWNER]: { chat_mention: MENTION, email: ['growth-analytics@metropass.example'] } },
   hideValues: false,
+  chatFormat: 'slack',
 };
 
 /** The judged run's clock for a day: 08:30 UTC the next morning. */

@@ -75,7 +75,7 @@ describe('applyIncidentDrafts', () => {
       ['opened', '2026-11-18'],
       ['severity_raised', '2026-11-20'],
     ]);
-    expect(messages[1]!.payload.text).toContain('Severity raised');
+    expect(messages[1]!.payload.text).toMatch(/^page ▮▮▮ raised from warn: /);
     const [incident] = await incidents();
     expect(incident).toMatchObject({ severity: 'page', notifiedSeverity: 'page' });
   });

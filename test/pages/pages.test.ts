@@ -119,7 +119,7 @@ describe('human pages, rendered by their handlers', () => {
     expect(response.status).toBe(200);
     const page = response.text;
     expect(page).toContain('<h1><bdi>android zone -&gt; rider conversion fell after release 7.4.0</bdi></h1>');
-    expect(page).toContain('<span class="sev sev-page">page</span> · ongoing');
+    expect(page).toContain('<span class="sev sev-page">page ▮▮▮</span> · ongoing');
     expect(page).toContain('2026-03-04');
     expect(page).toContain('growth-analytics');
 
@@ -172,7 +172,7 @@ describe('human pages, rendered by their handlers', () => {
     expect(segment).toContain('<bdi>partner</bdi>');
     expect(segment).toContain('0.82');
     const resolved = (await get(router, `/incidents/${scenario.ids.calendar}`)).text;
-    expect(resolved).toContain('resolved on <time datetime="2026-03-04">2026-03-04</time> (not seen again');
+    expect(resolved).toContain('resolved ▯▯▯ on <time datetime="2026-03-04">2026-03-04</time> (not seen again');
     const muted = (await get(router, `/incidents/${scenario.ids.delay}`)).text;
     expect(muted).toContain('never announced in chat (muted)');
     expect(muted).toContain('collector maintenance announced');

@@ -9,6 +9,7 @@ import { formatCount, formatNumber, formatPercent } from '../../../checks/messag
 import type { ExcerptPoint, Finding } from '../../../checks/types.js';
 import { dailySeriesChart, renderSvg } from '../../charts/index.js';
 import { causeWords, formatMeasure, isFractionMetric, presentIncident, rankSymptoms, whereText, type IncidentPresentation } from '../../delivery/present.js';
+import { RESOLVED_MARK } from '../../delivery/marks.js';
 import { loadValuePolicy, paramKeysOf, valuesShown, type ValuePolicy } from '../../delivery/privacy.js';
 import { cleanText, escapeHtml, htmlText } from '../../delivery/text.js';
 import { loadIncident } from '../../incidents/store.js';
@@ -121,7 +122,7 @@ const ROOT = '../';
 function statusText(incident: Incident): string {
   if (incident.status !== 'resolved') return `${escapeHtml(incident.status)}${incident.muted ? ' (muted: recorded, not announced)' : ''}`;
   const how = incident.resolution === 'withdrawn' ? 'withdrawn: a rerun of its days no longer showed it' : 'not seen again for the configured number of judged days';
-  return `resolved on ${dayText(incident.resolvedDay)} (${escapeHtml(how)})`;
+  return `resolved ${RESOLVED_MARK} on ${dayText(incident.resolvedDay)} (${escapeHtml(how)})`;
 }
 
 function headSection(p: IncidentPage): string {

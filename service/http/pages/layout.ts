@@ -9,6 +9,7 @@
  * strips control and direction characters and clips its length.
  */
 import type { Severity } from '../../../checks/types.js';
+import { severityLabel } from '../../delivery/marks.js';
 import { cleanText, escapeHtml, htmlText } from '../../delivery/text.js';
 
 /** Longest client string shown in a table cell or a heading. */
@@ -39,7 +40,7 @@ dl.facts dt { color: #52606d; }
 dl.facts dd { margin: 0; }
 .note { background: #e6f6ff; border-left: 4px solid #2680c2; padding: 8px 12px; margin: 12px 0; }
 .muted { color: #52606d; }
-.sev { font-weight: 700; text-transform: uppercase; font-size: 12px; letter-spacing: .04em; }
+.sev { font-weight: 700; text-transform: uppercase; font-size: 12px; letter-spacing: .04em; white-space: nowrap; }
 .sev-page { color: #ba2525; }
 .sev-warn { color: #b44d12; }
 .sev-note { color: #52606d; }
@@ -115,7 +116,7 @@ export function facts(entries: Array<[string, string]>): string {
 }
 
 export function severityText(severity: Severity): string {
-  return `<span class="sev sev-${escapeHtml(severity)}">${escapeHtml(severity)}</span>`;
+  return `<span class="sev sev-${escapeHtml(severity)}">${escapeHtml(severityLabel(severity))}</span>`;
 }
 
 /** Client text in a table cell or sentence. */
