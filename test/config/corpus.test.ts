@@ -131,6 +131,11 @@ const cases: Case[] = [
       'config/plumbline.yaml:25:3 incidents.renotify_cooldown: expected one of the keys resolve_after_days, repeat_after, found unknown key "renotify_cooldown" (renamed: did you mean repeat_after?)',
     ],
   },
+  {
+    name: 'a chat format plumbline cannot render',
+    changes: { [MAIN]: replace('  chat:\n', '  chat:\n    format: plain_json\n') },
+    problems: ['config/plumbline.yaml:26:13 delivery.chat.format: expected "slack", found string "plain_json"'],
+  },
 
   // Cron, timezone, durations, dates
   {
