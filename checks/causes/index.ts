@@ -53,46 +53,74 @@ function scopeOf(cause: Cause): string {
   return [cause.platform, cause.version].filter((part) => part !== null).join(' ') || 'all platforms';
 }
 
+/**
+ * The headline: the primary message under the incident's scope, naming the
+ * platform once. Messages usually open with their platform (and version):
+ * one that opens with the scope is the title as it is; one that opens with
+ * the platform the scope starts with gives up its platform to the scope
+ * ("android 7.4.0: zone -> rider conversion ...", never "web: web: ...").
+ */
+export function titleOf(scope: string, platform: string | null, message: string): string {
+  const opensWith = (words: string) => message.startsWith(`${words} `) || message.startsWith(`${words}:`);
+  if (opensWith(scope)) return message;
+  const named = platform !== null && (scope === platform || scope.startsWith(`${platform} `)) && opensWith(platform);
+  return `${scope}: ${named ? message.slice(platform.length).replace(/^:?\s*/, '') : message}`;
+}
+
+/** Strongest first: the most severe, then the largest score, then by series for a stable order. */
+function bySeverity(a: Finding, b: Finding): number {
+  return SEVERITY_RANK[b.severity] - SEVERITY_RANK[a.severity] || Math.abs(b.score) - Math.abs(a.score) || a.seriesKey.localeCompare(b.seriesKey);
+}
+
+/** Whether `a` leads `b` in the title: unmuted first, then by severity. */
+function leads(a: Finding, b: Finding): boolean {
+  return (Number(a.muted !== undefined) - Number(b.muted !== undefined) || bySeverity(a, b)) < 0;
+}
+
+/** What a data delay is about: the events themselves, whichever flow counts them. */
+const DATA_DELAY_SUBJECT = 'events';
+
 /** The incident drafts of one flow's judged day. */
 export function analyseCauses(input: CheckInput, findings: readonly Finding[]): IncidentDraft[] {
-  const groups = new Map<string, { attribution: Attribution; symptoms: Finding[] }>();
+  const groups = new Map<string, { attribution: Attribution; finding: Finding; symptoms: Finding[] }>();
   for (const finding of findings) {
     const attribution = attribute(finding, input, findings);
     const group = groups.get(attribution.groupKey);
     if (group) {
       group.symptoms.push(finding);
-      // The strongest evidence speaks for the group.
-      if (attribution.cause.confidence > group.attribution.cause.confidence) group.attribution = attribution;
-    } else groups.set(attribution.groupKey, { attribution, symptoms: [finding] });
+      // The strongest evidence speaks for the group; on a tie, the finding that leads the title.
+      const confidence = attribution.cause.confidence - group.attribution.cause.confidence;
+      if (confidence > 0 || (confidence === 0 && leads(finding, group.finding))) Object.assign(group, { attribution, finding });
+    } else groups.set(attribution.groupKey, { attribution, finding, symptoms: [finding] });
   }
   const drafts: IncidentDraft[] = [];
   for (const { attribution, symptoms } of groups.values()) {
     const cause = attribution.cause;
     const loud = symptoms.filter((f) => !f.muted);
-    const ranked = (loud.length > 0 ? loud : symptoms).slice().sort(
-      (a, b) => SEVERITY_RANK[b.severity] - SEVERITY_RANK[a.severity] || Math.abs(b.score) - Math.abs(a.score) || a.seriesKey.localeCompare(b.seriesKey),
-    );
+    const ranked = (loud.length > 0 ? loud : symptoms).slice().sort(bySeverity);
     const primary = ranked[0]!;
     const severity = loud.length > 0 ? primary.severity : symptoms.reduce<Severity>((low, f) => (SEVERITY_RANK[f.severity] < SEVERITY_RANK[low] ? f.severity : low), 'page');
     const platforms = [...new Set(symptoms.map((f) => f.platform))];
     // One platform when every symptom is on it; a cause seen across platforms (a segment, the calendar) has none.
     const platform = platforms.length === 1 ? platforms[0]! : null;
-    const subject = subjectOf(symptoms, input, platform);
+    const dataDelay = cause.label === 'data_delay';
+    const subject = dataDelay ? DATA_DELAY_SUBJECT : subjectOf(symptoms, input, platform);
     const version = cause.version;
     const since = symptoms.map((f) => f.since ?? f.day).sort()[0]!;
     const segmentKey = cause.segment ? `|${cause.segment.dimension}=${cause.segment.value}` : '';
     // Which platforms' findings crossed their thresholds on a day is chance for a cause that spans platforms:
     // only a release or a platform cause names its platform in the fingerprint, so the incident stays one.
     const fingerprintPlatform = cause.label === 'release' || cause.label === 'platform' ? (platform ?? '*') : '*';
+    // Likewise which flows: a late or stopped pipeline holds back every flow at once, so a data delay names none.
+    const fingerprintFlow = dataDelay ? '*' : input.flow.id;
     drafts.push({
-      fingerprint: `${input.flow.id}|${cause.label}|${subject}|${fingerprintPlatform}|${version ?? '*'}${segmentKey}`,
-      flow: input.flow.id,
-      owner: input.flow.owner,
+      fingerprint: `${fingerprintFlow}|${cause.label}|${subject}|${fingerprintPlatform}|${version ?? '*'}${segmentKey}`,
+      flows: [input.flow.id],
+      owners: [input.flow.owner],
       day: input.day,
       since,
       severity,
-      // Messages usually open with their platform and version: then the message is the title.
-      title: primary.message.startsWith(`${scopeOf({ ...cause, platform })} `) ? primary.message : `${scopeOf({ ...cause, platform })}: ${primary.message}`,
+      title: titleOf(scopeOf({ ...cause, platform }), platform, primary.message),
       subject,
       platform,
       version,
@@ -102,4 +130,36 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     });
   }
   return drafts.sort((a, b) => SEVERITY_RANK[b.severity] - SEVERITY_RANK[a.severity] || a.fingerprint.localeCompare(b.fingerprint));
+}
+
+const union = (a: readonly string[], b: readonly string[]) => [...new Set([...a, ...b])];
+
+/**
+ * The drafts of one judged day, every flow's together, as one draft per
+ * fingerprint: a data delay seen by several flows becomes one draft listing
+ * them all. The more severe draft (the first on a tie) leads with its title
+ * and cause; symptoms, flows and owners add up.
+ */
+export function mergeDrafts(drafts: readonly IncidentDraft[]): IncidentDraft[] {
+  const byFingerprint = new Map<string, IncidentDraft>();
+  for (const draft of drafts) {
+    const seen = byFingerprint.get(draft.fingerprint);
+    if (!seen) {
+      byFingerprint.set(draft.fingerprint, draft);
+      continue;
+    }
+    const lead = SEVERITY_RANK[draft.severity] > SEVERITY_RANK[seen.severity] ? draft : seen;
+    const platform = draft.platform === seen.platform ? lead.platform : null;
+    byFingerprint.set(draft.fingerprint, {
+      ...lead,
+      flows: union(seen.flows, draft.flows),
+      owners: union(seen.owners, draft.owners),
+      since: draft.since < seen.since ? draft.since : seen.since,
+      platform,
+      cause: { ...lead.cause, platform },
+      symptoms: [...seen.symptoms, ...draft.symptoms],
+      muted: seen.muted && draft.muted,
+    });
+  }
+  return [...byFingerprint.values()];
 }

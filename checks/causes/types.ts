@@ -27,10 +27,15 @@ export interface Cause {
 }
 
 export interface IncidentDraft {
-  /** Stable across days so a five-day incident is one incident: flow, cause label, subject, platform, version. */
+  /**
+   * Stable across days so a five-day incident is one incident: flow, cause
+   * label, subject, platform, version. A data delay's names no flow: one
+   * stop of the pipeline is one incident for every flow it holds back.
+   */
   fingerprint: string;
-  flow: string;
-  owner: string;
+  /** The flows whose findings the draft holds, and their owners, in the order judged. */
+  flows: string[];
+  owners: string[];
   /** The judged day the draft comes from. */
   day: Day;
   /** First anomalous day among the symptoms. */

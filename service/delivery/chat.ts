@@ -7,8 +7,8 @@
  * (`service/config/schema.ts`), which `delivery.chat.format` chooses from.
  *
  * In the `slack` format, client text goes through `chatText` (cleaned,
- * clipped, escaped); the owner's mention comes from reviewed config and is the
- * only mention a message can carry. Link unfurling is off so no data-driven
+ * clipped, escaped); the owners' mentions come from reviewed config and are
+ * the only mentions a message can carry. Link unfurling is off so no data-driven
  * address gets a preview.
  */
 import type { IncomingWebhookSendArguments } from '@slack/webhook';
@@ -47,8 +47,8 @@ export interface ChatInput {
   event: IncidentEvent;
   incident: Incident;
   presentation: IncidentPresentation;
-  /** The owner's configured mention, if any. */
-  mention?: string | undefined;
+  /** Each owner's configured mention, if any. */
+  mentions: Record<string, string | undefined>;
   /** The incident page. */
   url: string;
   /** For `severity_raised`: the severity announced before. */
@@ -65,6 +65,11 @@ function ownerText(owner: string, mention: string | undefined): string {
   return chatText(mention ?? owner, 80);
 }
 
+/** "Owner: x" or "Owners: x, y" (a data delay holds back flows of several owners). */
+function ownersLine(owners: readonly string[], show: (owner: string) => string): string {
+  return `Owner${owners.length === 1 ? '' : 's'}: ${owners.map(show).join(', ')}`;
+}
+
 /** Link text and address for mrkdwn `<url|text>`: the address is ours, `|` and `>` would end it early. */
 function link(url: string, text: string): string {
   return `<${url.replace(/\|/g, '%7C').replace(/>/g, '%3E').replace(/</g, '%3C')}|${escapeChat(text)}>`;
@@ -73,9 +78,8 @@ function link(url: string, text: string): string {
 function renderSlack(input: ChatInput): SlackMessage {
   const { event, incident, presentation: p } = input;
   const headline = chatText(p.headline, HEADLINE_MAX);
-  const flow = chatText(incident.flow, 80);
+  const flow = chatText(incident.flows.join(', '), 160);
   const where = chatText(p.where, 120);
-  const owner = ownerText(incident.owner, input.mention);
   const blocks: SlackMessage['blocks'] = [];
   let fallback: string;
   if (event === 'resolved') {
@@ -86,12 +90,12 @@ function renderSlack(input: ChatInput): SlackMessage {
         : `Not seen on ${input.resolveAfterDays} judged day${input.resolveAfterDays === 1 ? '' : 's'} after ${incident.lastSeenDay}.`;
     fallback = `resolved ${RESOLVED_MARK}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*resolved* ${RESOLVED_MARK} · ${flow} · ${where}\n*${headline}*`));
-    blocks.push(section(`${why} It lasted ${lasted}. Owner: ${chatText(incident.owner, 80)}.`));
+    blocks.push(section(`${why} It lasted ${lasted}. ${ownersLine(incident.owners, (owner) => chatText(owner, 80))}.`));
   } else {
     const what = event === 'opened' ? 'opened' : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
     fallback = `${severityLabel(incident.severity)} ${what}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*${incident.severity}* ${SEVERITY_MARK[incident.severity]} · ${what} · ${flow} · ${where}\n*${headline}*`));
-    blocks.push(section(`Owner: ${owner}`));
+    blocks.push(section(ownersLine(incident.owners, (owner) => ownerText(owner, input.mentions[owner]))));
     const fields = [
       `*Since*\n${incident.since} (${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'})`,
       `*Where*\n${where}`,

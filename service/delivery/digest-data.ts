@@ -246,7 +246,7 @@ async function loadNoise(rt: DigestRuntime, flow: string, week: Day, weekEnd: Da
       from ${s}.incidents i
       cross join lateral (
         select distinct s->>'check' as check from ${s}.incident_days d, jsonb_array_elements(d.symptoms) s where d.incident_id = i.id) c
-      where i.flow = $1 and i.opened_day between $2 and $3
+      where $1 = any(i.flows) and i.opened_day between $2 and $3
       group by c.check`,
     values: [flow, week, weekEnd],
   });

@@ -88,10 +88,17 @@ export function presentIncident(incident: Incident, sighting: Sighting | undefin
       sentence: shown ? (cause?.sentence ?? '') : `${label} on ${where}; parameter values are not shown`,
       evidence,
     },
-    symptoms: symptoms.slice(0, MAX_SYMPTOMS).map((finding) => ({
-      check: finding.check,
-      text: shown ? finding.message : `${finding.kind} ${finding.metric} of ${finding.subject.name} on ${whereText(finding.platform, finding.version)}`,
-    })),
+    // Flows watching the same events see a data delay alike: one line for the same words.
+    symptoms: [
+      ...new Map(
+        symptoms
+          .map((finding) => ({
+            check: finding.check,
+            text: shown ? finding.message : `${finding.kind} ${finding.metric} of ${finding.subject.name} on ${whereText(finding.platform, finding.version)}`,
+          }))
+          .map((symptom) => [`${symptom.check}|${symptom.text}`, symptom] as const),
+      ).values(),
+    ].slice(0, MAX_SYMPTOMS),
     valuesHidden: !shown,
   };
 }

@@ -1,18 +1,21 @@
 /**
  * The incident lifecycle. Called inside the transaction that stores a judged
- * (flow, day)'s findings, it turns that day's incident drafts into incidents
- * (opened, ongoing, resolved) and queues their chat messages in the outbox, so
- * a finding, its incident and its message commit or roll back together.
+ * day's findings of every flow, it turns that day's incident drafts into
+ * incidents (opened, ongoing, resolved) and queues their chat messages in the
+ * outbox, so a finding, its incident and its message commit or roll back
+ * together. The day is the unit, not the flow: a data delay holds back every
+ * flow at once and is one incident and one message, listing the flows.
  *
- * Everything is derived from two tables, so a rerun of (flow, day) leaves
- * exactly what the first run left: `incident_days` (one sighting per incident
- * and judged day; a rerun replaces the day's sightings) and `judged_days` (the
- * verdicts the resolution counts). Messages are unique per (incident, event,
- * day), and an incident remembers what it last announced, so a rerun cannot
- * queue a message twice.
+ * Everything is derived from two tables, so a rerun of a day leaves exactly
+ * what the first run left: `incident_days` (one sighting per incident and
+ * judged day, naming the flows that saw it; a rerun replaces the day's
+ * sightings) and `judged_days` (the verdicts the resolution counts). Messages
+ * are unique per (incident, event, day), and an incident remembers what it
+ * last announced, so a rerun cannot queue a message twice.
  */
 import { createHash } from 'node:crypto';
 import type pg from 'pg';
+import { mergeDrafts } from '../../checks/causes/index.js';
 import type { IncidentDraft } from '../../checks/causes/types.js';
 import type { Day, Severity } from '../../checks/types.js';
 import type { MainConfig } from '../config/schema.js';
@@ -53,82 +56,89 @@ export interface IncidentChanges {
 
 const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
 
-/** Drafts with the same fingerprint are one incident: the cause analysis should not emit two, but one sighting per day is a hard rule. */
-function mergeDrafts(drafts: readonly IncidentDraft[]): IncidentDraft[] {
-  const byFingerprint = new Map<string, IncidentDraft>();
-  for (const draft of drafts) {
-    const seen = byFingerprint.get(draft.fingerprint);
-    if (!seen) {
-      byFingerprint.set(draft.fingerprint, draft);
-      continue;
-    }
-    const lead = SEVERITY_RANK[draft.severity] > SEVERITY_RANK[seen.severity] ? draft : seen;
-    byFingerprint.set(draft.fingerprint, {
-      ...lead,
-      since: draft.since < seen.since ? draft.since : seen.since,
-      symptoms: [...seen.symptoms, ...draft.symptoms],
-      muted: seen.muted && draft.muted,
-    });
-  }
-  return [...byFingerprint.values()];
-}
-
 /**
- * Applies the incident drafts of one judged (flow, day), inside the caller's
- * transaction (after the day's verdict is stored in `judged_days`). `now` is
- * the run's clock: it stamps rows and measures the wait between messages (`incidents.repeat_after`).
+ * Applies the incident drafts of one judged day of `flows` (every flow judged
+ * that day), inside the caller's transaction (after the day's verdicts are
+ * stored in `judged_days`). `now` is the run's clock: it stamps rows and
+ * measures the wait between messages (`incidents.repeat_after`).
  */
 export async function applyIncidentDrafts(
   client: pg.ClientBase,
   schema: string,
-  flow: string,
+  flows: readonly string[],
   day: Day,
   drafts: readonly IncidentDraft[],
   policy: IncidentPolicy,
   now: Date,
 ): Promise<IncidentChanges> {
   for (const draft of drafts) {
-    if (draft.flow !== flow || draft.day !== day) throw new Error(`incident draft ${draft.fingerprint} is for ${draft.flow} on ${draft.day}, not ${flow} on ${day}`);
+    const stranger = draft.flows.find((flow) => !flows.includes(flow));
+    if (stranger !== undefined || draft.day !== day) throw new Error(`incident draft ${draft.fingerprint} is for ${draft.flows.join(', ')} on ${draft.day}, not ${flows.join(', ')} on ${day}`);
   }
   const s = quoteIdent(schema);
-  // Replicas judging the same flow take turns, so two cannot open the same incident twice.
-  await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.incidents.${schema}.${flow}`] });
+  // Replicas judging the same day take turns, so two cannot open the same incident twice.
+  await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.incidents.${schema}`] });
   const changes: IncidentChanges = { opened: [], ongoing: [], resolved: [], queued: 0 };
 
   const { rows: earlier } = await client.query<{ id: string }>({
-    text: `delete from ${s}.incident_days where flow = $1 and day = $2 returning incident_id as id`,
-    values: [flow, day],
+    text: `delete from ${s}.incident_days where day = $1 and flows && $2::text[] returning incident_id as id`,
+    values: [day, flows],
   });
   const touched = new Set(earlier.map((row) => row.id));
   const seen = new Set<string>();
   for (const draft of mergeDrafts(drafts)) {
     // The episode of this fingerprint that covers the day: opened on or before it and not resolved before it.
     const { rows } = await client.query<{ id: string; openedDay: Day }>({
-      text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents where flow = $1 and fingerprint = $2 and opened_day <= $3 and (resolved_day is null or resolved_day >= $3)
+      text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents where fingerprint = $1 and opened_day <= $2 and (resolved_day is null or resolved_day >= $2)
         order by opened_day desc limit 1 for update`,
-      values: [flow, draft.fingerprint, day],
+      values: [draft.fingerprint, day],
     });
     let id = rows[0]?.id;
     if (id === undefined) {
-      id = incidentId(flow, draft.fingerprint, day);
+      id = incidentId(draft.flows[0]!, draft.fingerprint, day);
       await client.query({
-        text: `insert into ${s}.incidents (id, fingerprint, flow, owner, status, severity, muted, title, subject, platform, version, cause_label,
+        text: `insert into ${s}.incidents (id, fingerprint, flow, owner, flows, owners, status, severity, muted, title, subject, platform, version, cause_label,
             since, opened_day, last_seen_day, days_seen, opened_at, updated_at)
-          values ($1, $2, $3, $4, 'open', $5, $6, $7, $8, $9, $10, $11, $12, $13, $13, 1, $14, $14)`,
-        values: [id, draft.fingerprint, flow, draft.owner, draft.severity, draft.muted, draft.title, draft.subject, draft.platform, draft.version, draft.cause.label, draft.since, day, now],
+          values ($1, $2, $3, $4, $5, $6, 'open', $7, $8, $9, $10, $11, $12, $13, $14, $15, $15, 1, $16, $16)`,
+        values: [
+          id,
+          draft.fingerprint,
+          draft.flows[0],
+          draft.owners[0],
+          draft.flows,
+          draft.owners,
+          draft.severity,
+          draft.muted,
+          draft.title,
+          draft.subject,
+          draft.platform,
+          draft.version,
+          draft.cause.label,
+          draft.since,
+          day,
+          now,
+        ],
       });
     }
     ((rows[0]?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
     await client.query({
-      text: `insert into ${s}.incident_days (incident_id, flow, day, since, severity, muted, title, cause, symptoms)
+      text: `insert into ${s}.incident_days (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
         values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
-      values: [id, flow, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms)],
+      values: [id, draft.flows, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms)],
+    });
+    // A flow that sees the incident later joins the flows it holds back, its owner the owners.
+    await client.query({
+      text: `update ${s}.incidents set
+          flows = flows || array(select f from unnest($2::text[]) with ordinality as u(f, n) where f <> all(flows) order by n),
+          owners = owners || array(select o from unnest($3::text[]) with ordinality as u(o, n) where o <> all(owners) order by n)
+        where id = $1 and not (flows @> $2::text[] and owners @> $3::text[])`,
+      values: [id, draft.flows, draft.owners],
     });
     touched.add(id);
     seen.add(id);
   }
   await refreshFromSightings(client, s, [...touched], now);
-  const resolved = await settle(client, schema, flow, day, [...touched], policy, now);
+  const resolved = await settle(client, schema, flows, day, [...touched], policy, now);
   changes.resolved = resolved.map((incident) => incident.id);
   changes.queued += await announceResolved(client, schema, resolved, policy, now);
   changes.queued += await announceSeen(client, schema, [...seen], day, policy, now);
@@ -172,22 +182,24 @@ interface SettleRow {
 }
 
 /**
- * Sets each affected incident's state from its sightings and the flow's
+ * Sets each affected incident's state from its sightings and its flows'
  * verdicts: resolved on the `resolve_after_days`-th judged day after it was
- * last seen (`not_ready` days do not count as clean), withdrawn when a rerun
+ * last seen (a day is judged when every flow of the incident judged that day
+ * judged it: `not_ready` days do not count as clean), withdrawn when a rerun
  * left it without sightings, open or ongoing otherwise. Returns the incidents
  * that became resolved.
  */
-async function settle(client: pg.ClientBase, schema: string, flow: string, day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
+async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
   const s = quoteIdent(schema);
   const { rows } = await client.query<SettleRow>({
     text: `select i.id, i.status, to_char(i.resolved_day, 'YYYY-MM-DD') as "resolvedDay", i.resolution, i.days_seen as "daysSeen",
         (select to_char(j.day, 'YYYY-MM-DD') from ${s}.judged_days j
-          where j.flow = i.flow and j.verdict = 'judged' and j.day > i.last_seen_day order by j.day offset $3 limit 1) as "cleanDay"
+          where j.flow = any(i.flows) and j.day > i.last_seen_day
+          group by j.day having bool_and(j.verdict = 'judged') order by j.day offset $3 limit 1) as "cleanDay"
       from ${s}.incidents i
-      where i.flow = $1 and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4))
+      where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4))
       order by i.id for update of i`,
-    values: [flow, day, policy.resolveAfterDays - 1, touched],
+    values: [flows, day, policy.resolveAfterDays - 1, touched],
   });
   const newlyResolved: string[] = [];
   for (const row of rows) {
@@ -208,7 +220,7 @@ async function settle(client: pg.ClientBase, schema: string, flow: string, day: 
   return newlyResolved.length === 0 ? [] : await loadIncidents(client, schema, newlyResolved);
 }
 
-/** A resolution is announced only for incidents whose opening was: muted ones come and go silently. */
+/** A resolution is announced only for incidents whose opening was: muted ones and notes come and go silently. */
 async function announceResolved(client: pg.ClientBase, schema: string, incidents: Incident[], policy: IncidentPolicy, now: Date): Promise<number> {
   let queued = 0;
   for (const incident of incidents) {
@@ -219,7 +231,7 @@ async function announceResolved(client: pg.ClientBase, schema: string, incidents
 }
 
 /**
- * Announces the unresolved, unmuted incidents seen on the day: "opened" the
+ * Announces the unresolved, unmuted incidents above `note` seen on the day: "opened" the
  * first time, "severity raised" when the severity is above what was last
  * announced and `incidents.repeat_after` has passed since that announcement
  * (a rise sooner than that is announced once the wait is over, if it holds).
@@ -229,7 +241,8 @@ async function announceSeen(client: pg.ClientBase, schema: string, ids: string[]
   const s = quoteIdent(schema);
   let queued = 0;
   for (const incident of await loadIncidents(client, schema, ids)) {
-    if (incident.muted || incident.status === 'resolved') continue;
+    // A note is recorded and shown in the digest, never sent to chat: an incident speaks once a sighting reaches warn.
+    if (incident.muted || incident.status === 'resolved' || incident.severity === 'note') continue;
     let event: IncidentEvent;
     if (incident.notifiedSeverity === null) event = 'opened';
     else if (
@@ -255,7 +268,7 @@ async function queue(client: pg.ClientBase, schema: string, event: IncidentEvent
     event,
     incident,
     presentation,
-    mention: policy.owners[incident.owner]?.chat_mention,
+    mentions: Object.fromEntries(incident.owners.map((owner) => [owner, policy.owners[owner]?.chat_mention])),
     url: incidentUrl(policy.publicUrl, incident.id),
     previousSeverity: incident.notifiedSeverity,
     resolveAfterDays: policy.resolveAfterDays,

@@ -17,6 +17,8 @@ const INCIDENT_COLUMNS = [
   'fingerprint',
   'flow',
   'owner',
+  'flows',
+  'owners',
   'status',
   'severity',
   'muted',
@@ -70,11 +72,11 @@ export async function loadIncidents(db: Db, schema: string, ids: string[]): Prom
   return await queryIncidents(db, { text: `select ${INCIDENT_COLUMNS} from ${quoteIdent(schema)}.incidents where id = any($1) order by id`, values: [ids] });
 }
 
-/** Incidents of `flows` that were unresolved at some point of [from, to], newest first. */
+/** Incidents holding back any of `flows` that were unresolved at some point of [from, to], newest first. */
 export async function listIncidents(db: Db, schema: string, options: { flows: string[]; from: Day; to: Day }): Promise<Incident[]> {
   return await queryIncidents(db, {
     text: `select ${INCIDENT_COLUMNS} from ${quoteIdent(schema)}.incidents
-      where flow = any($1) and opened_day <= $3 and (resolved_day is null or resolved_day >= $2)
+      where flows && $1::text[] and opened_day <= $3 and (resolved_day is null or resolved_day >= $2)
       order by opened_day desc, id`,
     values: [options.flows, options.from, options.to],
   });
@@ -83,7 +85,7 @@ export async function listIncidents(db: Db, schema: string, options: { flows: st
 /** Sightings of the given incidents, oldest first. */
 export async function loadSightings(db: Db, schema: string, ids: string[]): Promise<Sighting[]> {
   const { rows } = await db.query<Sighting>({
-    text: `select incident_id as "incidentId", ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
+    text: `select incident_id as "incidentId", flows, ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
       from ${quoteIdent(schema)}.incident_days where incident_id = any($1) order by incident_id, day`,
     values: [ids],
   });
@@ -93,7 +95,7 @@ export async function loadSightings(db: Db, schema: string, ids: string[]): Prom
 /** The latest sighting of each incident. */
 export async function latestSightings(db: Db, schema: string, ids: string[]): Promise<Map<string, Sighting>> {
   const { rows } = await db.query<Sighting>({
-    text: `select distinct on (incident_id) incident_id as "incidentId", ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
+    text: `select distinct on (incident_id) incident_id as "incidentId", flows, ${day('day', 'day')}, ${day('since', 'since')}, severity, muted, title, cause, symptoms
       from ${quoteIdent(schema)}.incident_days where incident_id = any($1) order by incident_id, day desc`,
     values: [ids],
   });

@@ -14,8 +14,14 @@ export interface Incident {
   /** Stable and URL-safe: the page is `${http.public_url}/incidents/${id}`. */
   id: string;
   fingerprint: string;
+  /** The first of `flows`: the incident's id starts with it. */
   flow: string;
+  /** The owner of `flow`. */
   owner: string;
+  /** The flows the incident holds back (one, except for a data delay), in the order they first saw it. */
+  flows: string[];
+  /** Their owners, the ones its messages mention. */
+  owners: string[];
   status: IncidentStatus;
   /** Highest severity of any sighting. */
   severity: Severity;
@@ -42,6 +48,8 @@ export interface Incident {
 /** What was seen of an incident on one judged day. */
 export interface Sighting {
   incidentId: string;
+  /** The flows that saw it on the day. */
+  flows: string[];
   day: Day;
   since: Day;
   severity: Severity;

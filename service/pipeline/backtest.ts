@@ -22,6 +22,8 @@ import { judgeDays, replayClock } from './run-day.js';
 export interface BacktestIncident {
   id: string;
   flow: string;
+  /** The flows it holds back (several for a data delay). */
+  flows: string[];
   causeLabel: string;
   title: string;
   platform: string | null;
@@ -93,7 +95,7 @@ export async function backtest(rt: Runtime, options: BacktestOptions): Promise<B
        from ${s}.findings order by day, flow, check_id, series_key`,
     );
     const incidents = await client.query<BacktestIncident>(
-      `select i.id, i.flow, i.cause_label as "causeLabel", i.title, i.platform, i.version, i.severity, i.muted,
+      `select i.id, i.flow, i.flows, i.cause_label as "causeLabel", i.title, i.platform, i.version, i.severity, i.muted,
         to_char(i.since, 'YYYY-MM-DD') as since, to_char(i.opened_day, 'YYYY-MM-DD') as "openedDay",
         to_char(i.last_seen_day, 'YYYY-MM-DD') as "lastSeenDay", to_char(i.resolved_day, 'YYYY-MM-DD') as "resolvedDay", i.fingerprint,
         (select d.cause from ${s}.incident_days d where d.incident_id = i.id order by d.day desc limit 1) as cause

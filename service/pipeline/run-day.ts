@@ -3,6 +3,7 @@ import type { IncidentDraft } from '../../checks/causes/types.js';
 import { dayEnd } from '../../checks/time.js';
 import type pg from 'pg';
 import { addDays } from '../config/definitions.js';
+import type { FlowConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
 import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
 import type { Runtime } from '../runtime.js';
@@ -92,7 +93,7 @@ export interface JudgeTarget {
   schema: string;
   /**
    * One client whose open transaction holds every write (a backtest rolls it
-   * back); without it each (flow, day) commits on its own, as a live run does.
+   * back); without it each judged day commits on its own, as a live run does.
    */
   client?: pg.ClientBase;
 }
@@ -102,7 +103,10 @@ export interface JudgeTarget {
  * stored rollups and stores the findings, incidents and messages. History is
  * loaded once per flow and sliced per day; findings of a day join the
  * anomalous days the next day's baselines leave out, exactly as separate
- * daily runs would see them. Live runs and backtests share this code.
+ * daily runs would see them. A day is judged for every flow before its
+ * incidents are drawn, in one transaction: one cause seen by several flows
+ * (a data delay) is one incident and one message. Live runs and backtests
+ * share this code.
  */
 export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date, target?: JudgeTarget): Promise<FlowJudgement[]> {
   if (days.length === 0) return [];
@@ -126,28 +130,37 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
       client.release();
     }
   };
-  for (const { config } of rt.config.flows) {
+  const loadFlow = async (config: FlowConfig) => {
     const flow = rt.flows.find((f) => f.id === config.flow)!;
     const calendar = [...rt.config.main.calendar, ...config.calendar];
     const history = await loadHistory(reader, rt.stateSchema, flow, calendar, from, days[days.length - 1]!);
     // Days before the window keep the verdicts the live runs gave them.
     const anomalous = await loadAnomalousDays(reader, rt.stateSchema, flow.id, from, days[0]!);
-    for (const day of days) {
-      const judge = async () => {
+    return { flow, config, history, anomalous };
+  };
+  const flows: Array<Awaited<ReturnType<typeof loadFlow>>> = [];
+  for (const { config } of rt.config.flows) flows.push(await loadFlow(config));
+  const flowIds = flows.map(({ flow }) => flow.id);
+  for (const day of days) {
+    const judge = async (): Promise<FlowJudgement[]> => {
+      const judged = flows.map(({ flow, config, history, anomalous }) => {
         const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
-        const incidents = analyseCauses(input, result.findings);
-        // Findings, incidents and their messages change together or not at all.
-        await write(async (client) => {
-          await storeJudgement(client, writeSchema, flow.id, day, result.verdict, result.reason, result.findings);
-          await applyIncidentDrafts(client, writeSchema, flow.id, day, incidents, policy, clock(day));
-        });
-        return { ...result, incidents };
-      };
-      const judgement = target?.client ? await judge() : await recordRun(rt, 'judge', day, flow.id, judge);
+        return { flow: flow.id, day, ...result, incidents: analyseCauses(input, result.findings) };
+      });
+      // Findings, incidents and their messages change together or not at all.
+      await write(async (client) => {
+        for (const judgement of judged) await storeJudgement(client, writeSchema, judgement.flow, day, judgement.verdict, judgement.reason, judgement.findings);
+        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day));
+      });
+      return judged;
+    };
+    const judged = target?.client ? await judge() : await recordRun(rt, 'judge', day, null, judge);
+    for (const judgement of judged) {
+      const { anomalous } = flows.find(({ flow }) => flow.id === judgement.flow)!;
       for (const finding of judgement.findings) (anomalous[finding.seriesKey] ??= []).push(day);
-      results.push({ flow: flow.id, day, ...judgement });
+      results.push(judgement);
     }
   }
   return results;

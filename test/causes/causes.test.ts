@@ -4,8 +4,8 @@
  * judged day and checks the label, the numbers and the grouping.
  */
 import { describe, expect, it } from 'vitest';
-import { analyseCauses } from '../../checks/causes/index.js';
-import { buildInput, DAY, finding } from './fixtures.js';
+import { analyseCauses, mergeDrafts, titleOf } from '../../checks/causes/index.js';
+import { buildInput, DAY, FLOW, finding } from './fixtures.js';
 
 const riderConversion = (platform: string) =>
   finding({ check: 'conversion', metric: 'step_conversion', subject: { type: 'step', name: 'rider', step: 'rider' }, platform });
@@ -83,6 +83,40 @@ describe('analyseCauses', () => {
 
     const partial = finding({ check: 'freshness', metric: 'hourly_events', subject: { type: 'day', name: DAY }, platform: null, kind: 'partial_day' });
     expect(onlyDraft(analyseCauses(buildInput(), [partial])).cause.label).toBe('data_delay');
+  });
+
+  it('makes one data delay of a stop every flow saw, listing the flows and their owners', () => {
+    // The pipeline stopped at 14:00 for every platform: both flows' freshness checks see it on their own.
+    const stopped = (flow: string, platform: string, missing: number) =>
+      finding({ check: 'freshness', kind: 'partial_day', flow, metric: 'events', subject: { type: 'day', name: DAY }, platform, severity: 'warn', score: missing, message: `events for ${DAY} from ${platform} stopped at 14:00 (about ${missing * 100}% of the day's events missing)` });
+    const pass = analyseCauses(buildInput(), [stopped('monthly_pass', 'web', 0.5), stopped('monthly_pass', 'ios', 0.51)]);
+    const signupInput = { ...buildInput(), flow: { ...FLOW, id: 'account_signup', owner: 'accounts' } };
+    const signup = analyseCauses(signupInput, [stopped('account_signup', 'web', 0.5), stopped('account_signup', 'ios', 0.51)]);
+    expect(onlyDraft(pass).fingerprint).toBe('*|data_delay|events|*|*');
+    expect(onlyDraft(signup).fingerprint).toBe(onlyDraft(pass).fingerprint);
+    const merged = onlyDraft(mergeDrafts([...signup, ...pass]));
+    expect(merged).toMatchObject({ flows: ['account_signup', 'monthly_pass'], owners: ['accounts', 'growth-analytics'], platform: null, severity: 'warn' });
+    expect(merged.symptoms).toHaveLength(4);
+    // The title and the cause speak of the same, strongest symptom: ios, 51% missing.
+    expect(merged.title).toBe(`all platforms: events for ${DAY} from ios stopped at 14:00 (about 51% of the day's events missing)`);
+    expect(merged.cause.sentence).toContain('from ios');
+    // Any other cause stays with its flow.
+    const release = (flowId: string) => ({ ...onlyDraft(pass), fingerprint: `${flowId}|release|rider|android|7.4.0`, flows: [flowId] });
+    expect(mergeDrafts([release('monthly_pass'), release('account_signup')])).toHaveLength(2);
+  });
+
+  it.each([
+    // [scope, platform, message, title]
+    ['web', 'web', 'web: 100.0% of pass_purchase_result events (52 of 52) lack the required parameter `outcome`', 'web: 100.0% of pass_purchase_result events (52 of 52) lack the required parameter `outcome`'],
+    ['web', 'web', 'web step review (screen_view screen=pay_review): nothing on 2026-09-23', 'web step review (screen_view screen=pay_review): nothing on 2026-09-23'],
+    ['ios 5.2.0', 'ios', 'ios 5.2.0 sends `zone` instead of `fare_zone` in zone_selected', 'ios 5.2.0 sends `zone` instead of `fare_zone` in zone_selected'],
+    ['android 7.4.0', 'android', 'android zone -> rider conversion 76.9% vs 83.9% baseline', 'android 7.4.0: zone -> rider conversion 76.9% vs 83.9% baseline'],
+    ['android 7.4.0', 'android', 'android: 12.0% of zone_selected events send `fare_zone` as null', 'android 7.4.0: 12.0% of zone_selected events send `fare_zone` as null'],
+    ['country=CA', 'ios', 'ios review -> done conversion 67.8% vs 75.8% baseline', 'country=CA: ios review -> done conversion 67.8% vs 75.8% baseline'],
+    ['all platforms', null, 'web screen_view: 589 people on 2026-11-26', 'all platforms: web screen_view: 589 people on 2026-11-26'],
+    ['web', 'web', 'webview_opened fell to 0', 'web: webview_opened fell to 0'],
+  ])('titles %s with %s "%s" naming the platform once', (scope, platform, message, title) => {
+    expect(titleOf(scope, platform, message)).toBe(title);
   });
 
   it('falls back to behaviour when the flow moved on every platform with nothing declared', () => {

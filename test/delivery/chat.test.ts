@@ -15,7 +15,7 @@ import { migrate } from '../../service/db/migrate.js';
 import { loadIncident } from '../../service/incidents/store.js';
 import { incidentUrl, type Incident, type Sighting } from '../../service/incidents/types.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { MENTION, POLICY, draft, judge, outboxRows, type DraftOptions } from '../incidents/fixtures.js';
+import { MENTION, OWNER, POLICY, draft, judge, outboxRows, type DraftOptions } from '../incidents/fixtures.js';
 import { testMain } from './fixtures.js';
 import { FORBIDDEN_CHARS, HOSTILE, STORABLE_HOSTILE } from './hostile.js';
 
@@ -28,8 +28,10 @@ function incidentFrom(options: DraftOptions): { incident: Incident; sighting: Si
   const incident: Incident = {
     id: 'monthly_pass-20261118-0a1b2c3d',
     fingerprint: d.fingerprint,
-    flow: d.flow,
-    owner: d.owner,
+    flow: d.flows[0]!,
+    owner: d.owners[0]!,
+    flows: d.flows,
+    owners: d.owners,
     status: 'open',
     severity: d.severity,
     muted: false,
@@ -50,7 +52,7 @@ function incidentFrom(options: DraftOptions): { incident: Incident; sighting: Si
     updatedAt: '2026-11-19T08:30:00.000Z',
     resolvedAt: null,
   };
-  return { incident, sighting: { incidentId: incident.id, day: d.day, since: d.since, severity: d.severity, muted: false, title: d.title, cause: d.cause, symptoms: d.symptoms } };
+  return { incident, sighting: { incidentId: incident.id, flows: d.flows, day: d.day, since: d.since, severity: d.severity, muted: false, title: d.title, cause: d.cause, symptoms: d.symptoms } };
 }
 
 function render(options: DraftOptions, event: 'opened' | 'resolved' = 'opened', values: ValuePolicy = SHOW_ALL): { message: SlackMessage; incident: Incident } {
@@ -60,7 +62,7 @@ function render(options: DraftOptions, event: 'opened' | 'resolved' = 'opened', 
     event,
     incident: resolved,
     presentation: presentIncident(resolved, sighting, values),
-    mention: MENTION,
+    mentions: { [OWNER]: MENTION },
     url: incidentUrl(POLICY.publicUrl, incident.id),
     resolveAfterDays: 2,
   });

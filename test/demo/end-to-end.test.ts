@@ -4,7 +4,9 @@
  * and judged day by day as `plumbline demo` does, then
  * - every injected incident yields a finding of each expected check, on the
  *   right platform and day (plus or minus one day);
- * - it becomes one incident with the right cause label (and version);
+ * - it becomes one incident with the right cause label (and version); the
+ *   collector delay that holds back both flows is one incident listing both;
+ * - no note reaches chat;
  * - false findings on clean days stay at most one per flow per 30 judged days.
  * The confusion counts are printed.
  */
@@ -90,7 +92,7 @@ describe('demo scenario end to end', () => {
       const flows = incident.flow === null ? rt.flows.map((f) => f.id) : [incident.flow];
       for (const flow of flows) {
         // Incidents whose days overlap the injected one, on its platform (or any, for all-platform ones).
-        const candidates = incidents.filter((i) => i.flow === flow && touches(incident, flow, i.platform, i.since) && i.lastSeenDay >= addDays(incident.firstDay, -1));
+        const candidates = incidents.filter((i) => i.flows.includes(flow) && touches(incident, flow, i.platform, i.since) && i.lastSeenDay >= addDays(incident.firstDay, -1));
         const right = candidates.filter((i) => i.causeLabel === incident.expectedCause && (incident.causeVersion === undefined || i.version === incident.causeVersion));
         const detail = candidates.map((i) => `${i.causeLabel}${i.version ? ` ${i.version}` : ''} ${i.since}..${i.lastSeenDay}: ${sightings.get(i.id)?.cause.sentence ?? ''}`);
         rows.push(`${incident.id} (${flow}): ${right.length} right of ${candidates.length}\n    ${detail.join('\n    ')}`);
@@ -101,6 +103,23 @@ describe('demo scenario end to end', () => {
     }
     console.log(`[demo end to end] incidents per injected incident:\n${rows.join('\n')}`);
     expect(wrong, rows.join('\n')).toEqual([]);
+  });
+
+  it('makes the collector delay one incident that holds back both flows', () => {
+    const delay = groundTruth.find((truth) => truth.kind === 'collector_delay')!;
+    const delays = incidents.filter((i) => i.causeLabel === 'data_delay' && i.lastSeenDay >= delay.firstDay);
+    expect(delays.map((i) => [i.since, [...i.flows].sort()])).toEqual([[delay.firstDay, rt.flows.map((f) => f.id).sort()]]);
+  });
+
+  it('sends no note to chat: every message belongs to an incident that reached warn', async () => {
+    const { rows } = await rt.state.query<{ severity: string; event: string; n: number }>(
+      `select i.severity, o.event, count(*)::int as n from ${quoteIdent(rt.stateSchema)}.outbox o join ${quoteIdent(rt.stateSchema)}.incidents i on i.id = o.incident_id
+       group by i.severity, o.event order by i.severity, o.event`,
+    );
+    console.log(`[demo end to end] chat messages by incident severity and event: ${JSON.stringify(rows)}`);
+    expect(rows.length).toBeGreaterThan(0);
+    expect(rows.filter((row) => row.severity === 'note')).toEqual([]);
+    expect(incidents.some((i) => i.severity === 'note')).toBe(true);
   });
 
   it('keeps false findings on clean days to at most one per flow per 30 judged days', () => {

@@ -94,8 +94,8 @@ export function draft(o: DraftOptions): IncidentDraft {
   const subject = o.param ? `${o.event ?? 'screen_shown'}.${o.param}` : (o.subject ?? 'rider');
   return {
     fingerprint: o.fingerprint ?? `${FLOW}|release|${subject}|${platform}|${version}`,
-    flow: FLOW,
-    owner: OWNER,
+    flows: [FLOW],
+    owners: [OWNER],
     day: o.day,
     since: o.since ?? o.day,
     severity: o.severity ?? 'warn',
@@ -116,6 +116,39 @@ export function draft(o: DraftOptions): IncidentDraft {
   };
 }
 
+/** The second flow of the scenario, for incidents that hold back several flows. */
+export const SIGNUP = { flow: 'account_signup', owner: 'accounts' };
+
+/** The pipeline stopped at 14:00 on `day`, as `flow`'s freshness check sees it: a data delay, whose fingerprint names no flow. */
+export function delayDraft(day: string, flow = FLOW, owner = OWNER): IncidentDraft {
+  const symptom: Finding = {
+    ...finding({ day, platform: 'web', version: '' }),
+    check: 'freshness',
+    kind: 'partial_day',
+    flow,
+    subject: { type: 'day', name: day },
+    metric: 'events',
+    version: null,
+    message: `events for ${day} from web stopped at 14:00 (about 50% of the day's events missing); ${day} not judged yet`,
+    seriesKey: 'freshness:day:web',
+  };
+  return {
+    fingerprint: '*|data_delay|events|*|*',
+    flows: [flow],
+    owners: [owner],
+    day,
+    since: day,
+    severity: 'warn',
+    title: `web: ${symptom.message}`,
+    subject: 'events',
+    platform: 'web',
+    version: null,
+    cause: { label: 'data_delay', confidence: 0.9, sentence: `the data is late or incomplete: ${symptom.message}`, platform: 'web', version: null, evidence: { stoppedAt: '14:00' } },
+    symptoms: [symptom],
+    muted: false,
+  };
+}
+
 /** Judges (FLOW, day) as the daily run does, in one transaction. */
 export async function judge(
   pool: pg.Pool,
@@ -124,11 +157,25 @@ export async function judge(
   drafts: IncidentDraft[],
   options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy } = {},
 ): Promise<IncidentChanges> {
+  return await judgeFlows(pool, schema, day, [{ flow: FLOW, drafts, verdict: options.verdict ?? 'judged' }], options);
+}
+
+/** Judges every given flow on `day` as the daily run does: their verdicts and findings, then every draft, in one transaction. */
+export async function judgeFlows(
+  pool: pg.Pool,
+  schema: string,
+  day: string,
+  flows: Array<{ flow: string; drafts: IncidentDraft[]; verdict?: 'judged' | 'not_ready' }>,
+  options: { now?: Date; policy?: IncidentPolicy } = {},
+): Promise<IncidentChanges> {
   const client = await pool.connect();
   try {
     await client.query('begin');
-    await storeJudgement(client, schema, FLOW, day, options.verdict ?? 'judged', undefined, drafts.flatMap((d) => d.symptoms));
-    const changes = await applyIncidentDrafts(client, schema, FLOW, day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day));
+    for (const { flow, drafts, verdict } of flows) {
+      await storeJudgement(client, schema, flow, day, verdict ?? 'judged', undefined, drafts.flatMap((d) => d.symptoms));
+    }
+    const drafts = flows.flatMap((f) => f.drafts);
+    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day));
     await client.query('commit');
     return changes;
   } catch (error) {

@@ -3,7 +3,8 @@
  * one incident per fingerprint episode, one message when it opens and one
  * when it resolves, a severity rise announced once, not sooner than repeat_after, resolution
  * after N clean judged days (not_ready days are not clean), muted incidents
- * recorded but never announced, and reruns of a (flow, day) that change nothing.
+ * and notes recorded but never announced, one incident and one message for a
+ * data delay every flow saw, and reruns of a day that change nothing.
  */
 import { afterEach, beforeEach, describe, expect, it, onTestFailed } from 'vitest';
 import type { IncidentDraft } from '../../checks/causes/types.js';
@@ -12,7 +13,7 @@ import { migrate } from '../../service/db/migrate.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { listIncidents, loadIncident } from '../../service/incidents/store.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { FLOW, MENTION, clockFor, draft, judge, outboxRows } from './fixtures.js';
+import { FLOW, MENTION, OWNER, POLICY, SIGNUP, clockFor, delayDraft, draft, judge, judgeFlows, outboxRows } from './fixtures.js';
 
 let db: TestSchema;
 /** What each test fed in, printed when it fails. */
@@ -116,6 +117,82 @@ describe('applyIncidentDrafts', () => {
     const [incident] = await incidents();
     expect(incident).toMatchObject({ muted: true, status: 'resolved', daysSeen: 3, notifiedSeverity: null });
     expect(await outboxRows(db.pool, db.schema)).toEqual([]);
+  });
+
+  it('never sends a note to chat, nor its resolution', async () => {
+    // README: a note is "recorded and in the digest only" (a declared holiday, a restated day).
+    for (const d of daysBetween('2026-11-18', '2026-11-19')) await day(d, [draft({ day: d, since: '2026-11-18', severity: 'note' })]);
+    await day('2026-11-20', []);
+    await day('2026-11-21', []);
+    const [incident] = await incidents();
+    expect(incident).toMatchObject({ severity: 'note', status: 'resolved', daysSeen: 2, notifiedSeverity: null });
+    expect(await outboxRows(db.pool, db.schema)).toEqual([]);
+  });
+
+  it('announces a note once it rises to warn, as its opening', async () => {
+    await day('2026-11-18', [draft({ day: '2026-11-18', severity: 'note' })]);
+    await day('2026-11-19', [draft({ day: '2026-11-19', since: '2026-11-18', severity: 'warn' })]);
+    await day('2026-11-20', []);
+    await day('2026-11-21', []);
+    expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([
+      ['opened', '2026-11-19'],
+      ['resolved', '2026-11-21'],
+    ]);
+  });
+
+  describe('a data delay every flow saw', () => {
+    const policy = { ...POLICY, owners: { ...POLICY.owners, [SIGNUP.owner]: { chat_mention: '<!subteam^S0ACCOUNTS>', email: ['accounts-team@metropass.example'] } } };
+    const both = (d: string, verdicts: { pass?: 'judged' | 'not_ready'; signup?: 'judged' | 'not_ready'; delay?: boolean } = {}) =>
+      judgeFlows(
+        db.pool,
+        db.schema,
+        d,
+        [
+          { flow: SIGNUP.flow, drafts: verdicts.delay ? [delayDraft(d, SIGNUP.flow, SIGNUP.owner)] : [], verdict: verdicts.signup ?? 'judged' },
+          { flow: FLOW, drafts: verdicts.delay ? [delayDraft(d)] : [], verdict: verdicts.pass ?? 'judged' },
+        ],
+        { policy },
+      );
+    const all = () => listIncidents(db.pool, db.schema, { flows: [FLOW, SIGNUP.flow], from: '2000-01-01', to: '2100-01-01' });
+
+    it('is one incident and one message, listing the flows it holds back and mentioning their owners', async () => {
+      const changes = await both('2026-11-30', { delay: true, pass: 'not_ready', signup: 'not_ready' });
+      const list = await all();
+      expect(list).toHaveLength(1);
+      expect(changes.opened).toEqual([list[0]!.id]);
+      expect(list[0]).toMatchObject({ flow: SIGNUP.flow, flows: [SIGNUP.flow, FLOW], owners: [SIGNUP.owner, OWNER], causeLabel: 'data_delay' });
+      const messages = await outboxRows(db.pool, db.schema);
+      expect(messages.map((m) => m.event)).toEqual(['opened']);
+      const text = JSON.stringify(messages[0]!.payload);
+      expect(text).toContain(`${SIGNUP.flow}, ${FLOW}`);
+      expect(text).toContain(`Owners: <!subteam^S0ACCOUNTS>, ${MENTION}`);
+      // Both flows saw the same words: the message lists them once.
+      expect(text.split('• freshness: events for 2026-11-30 from web stopped').length - 1).toBe(1);
+      const detail = await loadIncident(db.pool, db.schema, list[0]!.id);
+      expect(detail!.sightings.map((s) => [s.day, s.flows, s.symptoms.length])).toEqual([['2026-11-30', [SIGNUP.flow, FLOW], 2]]);
+    });
+
+    it('resolves only on days every flow it holds back judged', async () => {
+      await both('2026-11-30', { delay: true, pass: 'not_ready', signup: 'not_ready' });
+      await both('2026-12-01', { signup: 'not_ready' });
+      await both('2026-12-02');
+      expect((await all())[0]!.status).toBe('open');
+      await both('2026-12-03');
+      expect((await all())[0]).toMatchObject({ status: 'resolved', resolvedDay: '2026-12-03' });
+      expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([
+        ['opened', '2026-11-30'],
+        ['resolved', '2026-12-03'],
+      ]);
+    });
+
+    it('takes in a flow that sees it on a later day', async () => {
+      await judgeFlows(db.pool, db.schema, '2026-11-30', [{ flow: FLOW, drafts: [delayDraft('2026-11-30')] }, { flow: SIGNUP.flow, drafts: [] }], { policy });
+      expect((await all())[0]).toMatchObject({ flows: [FLOW], owners: [OWNER] });
+      await both('2026-12-01', { delay: true });
+      const list = await all();
+      expect(list).toHaveLength(1);
+      expect(list[0]).toMatchObject({ flows: [FLOW, SIGNUP.flow], owners: [OWNER, SIGNUP.owner], daysSeen: 2 });
+    });
   });
 
   it('announces an incident once its mute no longer covers it', async () => {

@@ -199,8 +199,8 @@ const fingerprintOf = (spec: DraftSpec) => `${spec.flow}|${spec.cause.label}|${s
 function draftOf(spec: DraftSpec, day: string): IncidentDraft {
   return {
     fingerprint: fingerprintOf(spec),
-    flow: spec.flow,
-    owner: OWNERS[spec.flow],
+    flows: [spec.flow],
+    owners: [OWNERS[spec.flow]],
     day,
     since: spec.since,
     severity: spec.severity,
@@ -242,7 +242,7 @@ export async function createPagesScenario(): Promise<PagesScenario> {
       try {
         await client.query('begin');
         await storeJudgement(client, schema, flow, day, 'judged', undefined, drafts.flatMap((d) => d.symptoms));
-        await applyIncidentDrafts(client, schema, flow, day, drafts, policy, clockFor(day));
+        await applyIncidentDrafts(client, schema, [flow], day, drafts, policy, clockFor(day));
         await client.query('commit');
       } catch (error) {
         await client.query('rollback');

@@ -24,7 +24,7 @@ export interface RunnerFixture {
   /** The raw log text, to look for anything that must never be logged. */
   logText(): string;
   open(): Promise<Runtime>;
-  /** How many `judge` runs each (flow, day) got, and its verdict. */
+  /** How many `judge` runs (one per day, every flow) judged each (flow, day), and its verdict. */
   judgeCounts(): Promise<Array<{ flow: string; day: string; runs: number; verdict: string | null }>>;
   drop(): Promise<void>;
 }
@@ -71,9 +71,9 @@ export async function createRunnerFixture(options: { days: string[]; catchUpDays
     async judgeCounts() {
       const s = quoteIdent(state.schema);
       const { rows } = await state.pool.query<{ flow: string; day: string; runs: number; verdict: string | null }>(
-        `select r.flow, to_char(r.day, 'YYYY-MM-DD') as day, count(*)::int as runs, j.verdict
-         from ${s}.runs r left join ${s}.judged_days j on j.flow = r.flow and j.day = r.day
-         where r.kind = 'judge' group by r.flow, r.day, j.verdict order by r.day, r.flow`,
+        `select j.flow, to_char(j.day, 'YYYY-MM-DD') as day, count(r.id)::int as runs, j.verdict
+         from ${s}.judged_days j left join ${s}.runs r on r.kind = 'judge' and r.day = j.day
+         group by j.flow, j.day, j.verdict order by j.day, j.flow`,
       );
       return rows;
     },

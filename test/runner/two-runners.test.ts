@@ -150,9 +150,9 @@ describe('two runners on one state schema', () => {
       for (let i = 0; i < count / 2; i++) {
         const id = `monthly_pass-20260310-0000000${i}`;
         await client.query({
-          text: `insert into ${s()}.incidents (id, fingerprint, flow, owner, status, severity, muted, title, subject, platform, version, cause_label,
+          text: `insert into ${s()}.incidents (id, fingerprint, flow, owner, flows, owners, status, severity, muted, title, subject, platform, version, cause_label,
               since, opened_day, last_seen_day, days_seen, opened_at, updated_at)
-            values ($1, $2, 'monthly_pass', 'growth-analytics', 'open', 'page', false, 'android zone_picker views fell', 'zone_picker', 'android', null,
+            values ($1, $2, 'monthly_pass', 'growth-analytics', '{monthly_pass}', '{growth-analytics}', 'open', 'page', false, 'android zone_picker views fell', 'zone_picker', 'android', null,
               'platform', '2026-03-10', '2026-03-10', '2026-03-10', 1, now(), now())`,
           values: [id, `fp${i}`],
         });

@@ -47,7 +47,8 @@ export interface IncidentPage {
   /** Headline per sighting day, as privacy allows. */
   headlines: Map<string, string>;
   symptoms: Symptom[];
-  flowTitle: string;
+  /** Title and id of each flow the incident holds back. */
+  flowTitles: Array<{ id: string; title: string }>;
   split: VersionSplit | undefined;
   /** The incident is blamed on a release but no split could be read (and why). */
   splitMissing: string | null;
@@ -87,7 +88,7 @@ export async function loadIncidentPage(ctx: PagesContext, id: string): Promise<I
     incident.lastSeenDay,
   );
   const flow = ctx.rt.flows.find((f) => f.id === incident.flow);
-  const title = ctx.rt.config.flows.find((f) => f.config.flow === incident.flow)?.config.title;
+  const titleOf = (id: string) => ctx.rt.config.flows.find((f) => f.config.flow === id)?.config.title ?? id;
   const cause = latest?.cause;
   let split: VersionSplit | undefined;
   let splitMissing: string | null = null;
@@ -109,7 +110,7 @@ export async function loadIncidentPage(ctx: PagesContext, id: string): Promise<I
     presentation: presentIncident(incident, latest, values),
     headlines: new Map(sightings.map((s) => [s.day, presentIncident(incident, s, values).headline])),
     symptoms: found.map(({ finding, seenOn }) => ({ finding, seenOn, shown: valuesShown(values, [finding]) })),
-    flowTitle: title ?? incident.flow,
+    flowTitles: incident.flows.map((id) => ({ id, title: titleOf(id) })),
     split,
     splitMissing,
     timezone: ctx.rt.timezone,
@@ -135,8 +136,8 @@ function headSection(p: IncidentPage): string {
 <p>${severityText(incident.severity)} · ${statusText(incident)}</p>
 ${facts([
   ['incident', `<code>${escapeHtml(incident.id)}</code>`],
-  ['flow', `${clientText(p.flowTitle)} (${clientText(incident.flow)})`],
-  ['owner', clientText(incident.owner)],
+  [p.flowTitles.length === 1 ? 'flow' : 'flows', p.flowTitles.map(({ id, title }) => `${clientText(title)} (${clientText(id)})`).join(', ')],
+  [incident.owners.length === 1 ? 'owner' : 'owners', incident.owners.map((owner) => clientText(owner)).join(', ')],
   ['where', clientText(presentation.where)],
   ['subject', clientText(incident.subject)],
   ['since', `${dayText(incident.since)} <span class="muted">(first anomalous day)</span>`],

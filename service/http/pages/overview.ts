@@ -92,7 +92,7 @@ export async function loadOverview(ctx: PagesContext): Promise<Overview> {
       owner: flow.owner,
       platforms: flow.platforms,
       verdict: verdicts.find((v) => v.flow === flow.id),
-      open: open.filter(({ incident }) => incident.flow === flow.id).length,
+      open: open.filter(({ incident }) => incident.flows.includes(flow.id)).length,
     })),
     open,
     resolved,
@@ -142,7 +142,7 @@ ${dataTable({
     cells: [
       incidentLink(ROOT, incident.id, headline),
       severityText(incident.severity),
-      clientText(incident.flow),
+      clientText(incident.flows.join(', ')),
       clientText(whereText(incident.platform, incident.version)),
       dayText(incident.since),
       String(incident.daysSeen),
@@ -166,7 +166,7 @@ ${dataTable({
     cells: [
       incidentLink(ROOT, incident.id, headline),
       severityText(incident.severity),
-      clientText(incident.flow),
+      clientText(incident.flows.join(', ')),
       dayText(incident.since),
       dayText(incident.resolvedDay),
       escapeHtml(incident.resolution === 'withdrawn' ? 'withdrawn' : 'clean days'),
@@ -202,7 +202,7 @@ function runsSection(o: Overview): string {
   const older = o.failures.filter((run) => !shown.has(run.id));
   return [
     header,
-    runsTable(o.runs, `The ${o.runs.length} newest units of work: rollups (one business day, all flows) and judgements (one flow and day). Times in ${o.timezone}.`, o.timezone),
+    runsTable(o.runs, `The ${o.runs.length} newest units of work: rollups (one business day, all flows) and judgements (one business day, all flows). Times in ${o.timezone}.`, o.timezone),
     `<h3 id="failures">Failed runs</h3>`,
     o.failures.length === 0
       ? none('No run has failed.')
