@@ -4,6 +4,7 @@ import { demoCommand } from './commands/demo.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
 import { EXIT, ExitError } from './exit-codes.js';
+import { PICTURE_DAYS } from './summary.js';
 import { withRuntime } from './with-runtime.js';
 
 const program = new Command()
@@ -40,7 +41,8 @@ program
   .option('--from <day>', 'first day of a range')
   .option('--to <day>', 'last day of a range')
   .option('--now <timestamp>', 'the clock to judge --date by (ISO timestamp; default: now)')
-  .option('--days <n>', 'days shown in the day-by-day picture', integer, 14)
+  .option('--days <n>', 'days shown in the day-by-day picture', integer, PICTURE_DAYS)
+  .option('--findings', 'list every finding instead of one line per incident, check and platform')
   .option('--json', 'machine-readable output')
   .action(async (options) => {
     process.exitCode = await withRuntime(configDir(), (rt) => runCommand(rt, options));
@@ -49,9 +51,10 @@ program
 program
   .command('demo')
   .description('generate the Metro Pass demo scenario into an embedded database, judge every day and print the picture')
-  .option('--days <n>', 'days shown in the day-by-day picture', integer, 21)
+  .option('--days <n>', 'days shown in the day-by-day picture', integer, PICTURE_DAYS)
+  .option('--findings', 'list every finding instead of one line per incident, check and platform')
   .option('--json', 'machine-readable output')
-  .action(async (options: { json?: boolean; days: number }) => {
+  .action(async (options: { json?: boolean; days: number; findings?: boolean }) => {
     process.exitCode = await withRuntime(configDir(), (rt) => demoCommand(rt, options), { forceEmbedded: true });
   });
 

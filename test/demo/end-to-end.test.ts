@@ -6,7 +6,8 @@
  *   right platform and day (plus or minus one day);
  * - it becomes one incident with the right cause label (and version); the
  *   collector delay that holds back both flows is one incident listing both;
- * - no note reaches chat;
+ * - no note reaches chat, and the terminal shows every incident within its
+ *   first 80 lines;
  * - false findings on clean days stay at most one per flow per 30 judged days.
  * The confusion counts are printed.
  */
@@ -16,6 +17,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { formatDiff } from '../../service/cli/commands/backtest.js';
+import { PICTURE_DAYS, formatSummary, loadSummary } from '../../service/cli/summary.js';
 import { addDays } from '../../checks/time.js';
 import type { Finding } from '../../checks/types.js';
 import { loadConfig } from '../../service/config/load.js';
@@ -120,6 +122,15 @@ describe('demo scenario end to end', () => {
     expect(rows.length).toBeGreaterThan(0);
     expect(rows.filter((row) => row.severity === 'note')).toEqual([]);
     expect(incidents.some((i) => i.severity === 'note')).toBe(true);
+  });
+
+  it('prints every incident within the first 80 lines of the terminal summary', async () => {
+    const lines = formatSummary(rt.flows, await loadSummary(rt, demo.judgedFrom, demo.to), { pictureDays: PICTURE_DAYS, allFindings: false }).split('\n');
+    const last = lines.findIndex((line) => line.startsWith(`  #${incidents.length} `));
+    expect(lines.findIndex((line) => line.startsWith('Incidents ('))).toBeGreaterThan(0);
+    expect(last, lines.slice(0, 100).join('\n')).toBeGreaterThan(0);
+    // Each incident takes three lines: the last one ends two lines below its number.
+    expect(last + 2).toBeLessThan(80);
   });
 
   it('keeps false findings on clean days to at most one per flow per 30 judged days', () => {

@@ -1,6 +1,7 @@
 import { backtest, loadConfigAtRef, type BacktestResult } from '../../pipeline/backtest.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
+import { dayRanges } from '../report.js';
 
 export interface BacktestCommandOptions {
   days: number;
@@ -41,22 +42,6 @@ function countByCheck(result: BacktestResult): Map<Key, { raised: number; muted:
   return counts;
 }
 
-function dayRanges(days: Iterable<string>): string {
-  const sorted = [...days].sort();
-  const ranges: string[] = [];
-  let start = sorted[0];
-  let previous = sorted[0];
-  const next = (day: string) => new Date(Date.parse(`${day}T00:00:00Z`) + 86_400_000).toISOString().slice(0, 10);
-  for (const day of sorted.slice(1)) {
-    if (day !== next(previous!)) {
-      ranges.push(start === previous ? start! : `${start}..${previous}`);
-      start = day;
-    }
-    previous = day;
-  }
-  if (start !== undefined) ranges.push(start === previous ? start : `${start}..${previous}`);
-  return ranges.join(', ');
-}
 
 export function formatBacktest(result: BacktestResult): string {
   const lines = [`Backtest of ${result.flows.join(', ')} from ${result.from} to ${result.to} (${(result.millis / 1000).toFixed(1)} s)`];
@@ -69,7 +54,7 @@ export function formatBacktest(result: BacktestResult): string {
   lines.push('', `Incidents (${result.incidents.length}):`);
   for (const incident of result.incidents) {
     const until = incident.resolvedDay ? `resolved ${incident.resolvedDay}` : `open, last seen ${incident.lastSeenDay}`;
-    lines.push(`  ${incident.openedDay} ${incident.flow} [${incident.causeLabel}] ${incident.severity}${incident.muted ? ' muted' : ''}: ${incident.title} (${until})`);
+    lines.push(`  ${incident.openedDay} ${incident.flows.join(', ')} [${incident.causeLabel}] ${incident.severity}${incident.muted ? ' muted' : ''}: ${incident.title} (${until})`);
   }
   if (result.notReady.length > 0) lines.push('', `Not judged (data incomplete): ${result.notReady.map((n) => `${n.day} ${n.flow}`).join(', ')}`);
   return lines.join('\n');
@@ -105,7 +90,7 @@ export function formatDiff(ref: string, before: BacktestResult, after: BacktestR
     lines.push(`| ${check} | ${platform} | ${b} | ${a} | ${a - b > 0 ? '+' : ''}${a - b} |`);
   }
   const describe = (incident: BacktestResult['incidents'][number]) =>
-    `- ${incident.openedDay} ${incident.flow} [${incident.causeLabel}] ${incident.title.replaceAll('|', '\\|')}`;
+    `- ${incident.openedDay} ${incident.flows.join(', ')} [${incident.causeLabel}] ${incident.title.replaceAll('|', '\\|')}`;
   const fingerprints = (result: BacktestResult) => new Set(loud(result).map((incident) => `${incident.fingerprint}|${incident.openedDay}`));
   const gone = loud(before).filter((incident) => !fingerprints(after).has(`${incident.fingerprint}|${incident.openedDay}`));
   const added = loud(after).filter((incident) => !fingerprints(before).has(`${incident.fingerprint}|${incident.openedDay}`));

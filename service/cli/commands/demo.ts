@@ -8,7 +8,7 @@ import type { Runtime } from '../../runtime.js';
 import { EXIT } from '../exit-codes.js';
 import { formatSummary, loadSummary } from '../summary.js';
 
-export async function demoCommand(rt: Runtime, options: { json?: boolean; days: number }): Promise<number> {
+export async function demoCommand(rt: Runtime, options: { json?: boolean; days: number; findings?: boolean }): Promise<number> {
   const demo = await prepareDemo(rt, { quiet: options.json ?? false });
   // No webhook or SMTP in the demo: chat payloads and the digest become files. Old payloads would mislead.
   await rm(join(rt.config.main.delivery.outbox_dir, 'chat'), { recursive: true, force: true });
@@ -19,7 +19,7 @@ export async function demoCommand(rt: Runtime, options: { json?: boolean; days: 
   if (options.json) {
     console.log(JSON.stringify({ demo, delivery, ...summary }, null, 2));
   } else {
-    console.log(formatSummary(rt, summary, options.days));
+    console.log(formatSummary(rt.flows, summary, { pictureDays: options.days, allFindings: options.findings ?? false }));
     console.log(`\nDemo: ${demo.events.toLocaleString('en-US')} events from ${demo.from} to ${demo.to}, judged from ${demo.judgedFrom}, in ${(demo.millis / 1000).toFixed(1)} s.`);
     console.log(`Ground truth of the injected incidents: ${demo.groundTruthPath}`);
     console.log(`Chat messages (no webhook configured): ${chat.sent} written to ${chat.folder ?? 'the webhook'}`);

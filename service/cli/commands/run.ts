@@ -5,7 +5,7 @@ import { lockName } from '../../runner/queries.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { Progress } from '../progress.js';
-import { formatSummary, loadSummary } from '../summary.js';
+import { PICTURE_DAYS, formatSummary, loadSummary } from '../summary.js';
 
 export interface RunCommandOptions {
   date?: string;
@@ -14,6 +14,7 @@ export interface RunCommandOptions {
   now?: string;
   json?: boolean;
   days?: number;
+  findings?: boolean;
 }
 
 /** Rolls up every day of the range (in parallel), then judges them in order so baselines build up. */
@@ -63,7 +64,7 @@ async function runClaimed(rt: Runtime, options: RunCommandOptions): Promise<numb
   }
   const summary = await loadSummary(rt, from, to);
   if (options.json) console.log(JSON.stringify(summary, null, 2));
-  else console.log(formatSummary(rt, summary, options.days ?? 14));
+  else console.log(formatSummary(rt.flows, summary, { pictureDays: options.days ?? PICTURE_DAYS, allFindings: options.findings ?? false }));
   return EXIT.ok;
 }
 
