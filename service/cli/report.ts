@@ -1,6 +1,7 @@
 import type { Cause } from '../../checks/causes/types.js';
 import type { Severity } from '../../checks/types.js';
 import { addDays } from '../config/definitions.js';
+import { severityLabel } from '../delivery/marks.js';
 import { causeWords } from '../delivery/present.js';
 import { SEVERITY_RANK, type Incident } from '../incidents/types.js';
 import type { FunnelDaySummary, StoredFinding } from '../state/summary.js';
@@ -92,14 +93,14 @@ function span(incident: Incident): string {
 
 /**
  * Incidents, numbered in the order given (see `rankIncidents`), the cause
- * first: "#1 data delay · warn · 2026-11-30 (1 judged day) · open ·
+ * first: "#1 data delay · warn ▮▮▯ · 2026-11-30 (1 judged day) · open ·
  * account_signup, monthly_pass", then the cause's sentence, then what was seen.
  */
 export function formatIncidents(incidents: readonly ListedIncident[]): string[] {
   if (incidents.length === 0) return ['  none'];
   return incidents.flatMap((incident, index) => {
     const status = `${incident.status}${incident.resolvedDay ? ` ${incident.resolvedDay}` : ''}${incident.muted ? ', muted' : ''}`;
-    const head = [causeWords(incident.cause?.label ?? incident.causeLabel), incident.severity, span(incident), status, incident.flows.join(', ')].join(' · ');
+    const head = [causeWords(incident.cause?.label ?? incident.causeLabel), severityLabel(incident.severity), span(incident), status, incident.flows.join(', ')].join(' · ');
     const number = `#${index + 1}`.padEnd(4);
     return [`  ${number}${head}`, `      cause: ${incident.cause?.sentence ?? '-'}`, `      seen:  ${incident.title}`];
   });

@@ -107,10 +107,10 @@ describe('terminal report', () => {
       title: 'all platforms: events for 2026-11-30 from ios stopped at 14:00',
     });
     expect(formatIncidents([delay, incident('release')])).toEqual([
-      '  #1  data delay · warn · 2026-11-30 (1 judged day) · open · account_signup, monthly_pass',
+      '  #1  data delay · warn ▮▮▯ · 2026-11-30 (1 judged day) · open · account_signup, monthly_pass',
       '      cause: the cause of delay',
       '      seen:  all platforms: events for 2026-11-30 from ios stopped at 14:00',
-      '  #2  app release · warn · 2026-10-14..2026-10-20 (7 judged days) · resolved 2026-10-22 · monthly_pass',
+      '  #2  app release · warn ▮▮▯ · 2026-10-14..2026-10-20 (7 judged days) · resolved 2026-10-22 · monthly_pass',
       '      cause: the cause of release',
       '      seen:  android 7.4.0: zone -> rider conversion fell (release)',
     ]);
