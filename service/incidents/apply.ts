@@ -184,10 +184,9 @@ interface SettleRow {
 /**
  * Sets each affected incident's state from its sightings and its flows'
  * verdicts: resolved on the `resolve_after_days`-th judged day after it was
- * last seen (a day is judged when every flow of the incident judged that day
- * judged it: `not_ready` days do not count as clean), withdrawn when a rerun
- * left it without sightings, open or ongoing otherwise. Returns the incidents
- * that became resolved.
+ * last seen (a day none of its flows held back: `not_ready` days do not count
+ * as clean), withdrawn when a rerun left it without sightings, open or ongoing
+ * otherwise. Returns the incidents that became resolved.
  */
 async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
   const s = quoteIdent(schema);

@@ -157,11 +157,10 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
       return judged;
     };
     const judged = target?.client ? await judge() : await recordRun(rt, 'judge', day, null, judge);
-    for (const judgement of judged) {
-      const { anomalous } = flows.find(({ flow }) => flow.id === judgement.flow)!;
-      for (const finding of judgement.findings) (anomalous[finding.seriesKey] ??= []).push(day);
-      results.push(judgement);
-    }
+    judged.forEach((judgement, i) => {
+      for (const finding of judgement.findings) (flows[i]!.anomalous[finding.seriesKey] ??= []).push(day);
+    });
+    results.push(...judged);
   }
   return results;
 }
