@@ -66,6 +66,8 @@ export interface Truth {
 
 /** People a day a fault must touch in a flow before missing it counts against recall (common practice: below this, daily counts are noise). */
 export const MIN_AFFECTED_PEOPLE = 40;
+/** Step-time faults hit steps whose median time is at least this (seconds). */
+const STEP_TIME_MIN_SECONDS = 20;
 
 export const INCIDENT_TYPES = [
   'release_stops_step',
@@ -213,18 +215,16 @@ function pickRelease(ctx: Context, kept = false): { platform: PlatformPlan; rele
       .filter((o) => o.share >= 0.3 && o.end - o.release.firstDay >= 7),
   );
   if (options.length === 0) return undefined;
-  const chosen = ctx.rng.pick(options);
-  ctx.usedReleases.add(`${chosen.platform.id}|${chosen.release.version}`);
-  return chosen;
+  return ctx.rng.pick(options);
 }
 
-/** A (flow, step >= 1) pair; with a platform, only steps that platform reaches often enough. */
-function pickStep(ctx: Context, platform: PlatformPlan | null, minPeople: number): { flow: FlowPlan; step: number } | undefined {
+/** A (flow, step >= 1) pair; with a platform, only steps that platform reaches often enough; `minSeconds`: only steps people spend that long on. */
+function pickStep(ctx: Context, platform: PlatformPlan | null, minPeople: number, minSeconds = 0): { flow: FlowPlan; step: number } | undefined {
   const s = ctx.scenario;
   const options = s.flows.flatMap((flow) =>
     flow.steps
       .map((_, step) => ({ flow, step }))
-      .filter(({ step }) => step >= 1)
+      .filter(({ step }) => step >= 1 && flow.steps[step]!.gapMedian >= minSeconds)
       .filter(({ flow, step }) => (platform ? [platform] : s.platforms).reduce((sum, p) => sum + stepJourneys(s, flow, p, step), 0) >= minPeople),
   );
   return options.length > 0 ? ctx.rng.pick(options) : undefined;
@@ -358,7 +358,6 @@ const DRAWS: Record<IncidentType, Draw> = {
     const s = ctx.scenario;
     const day = last(s);
     if (ctx.dataDays.has(day)) return undefined;
-    ctx.dataDays.add(day);
     const hour = ctx.rng.int(10, 17);
     return {
       injection: { kind: 'early_stop', day, hour },
@@ -376,7 +375,6 @@ const DRAWS: Record<IncidentType, Draw> = {
     const delay = ctx.rng.int(1, 4);
     const day = startDay(ctx, 1, last(s) - delay - 1);
     if (day === undefined || ctx.dataDays.has(day)) return undefined;
-    ctx.dataDays.add(day);
     const share = ctx.rng.uniform(0.2, 0.6);
     return {
       injection: { kind: 'late_rows', day, platform: platform.index, share, arrives: day + delay },
@@ -409,7 +407,8 @@ const DRAWS: Record<IncidentType, Draw> = {
     };
   },
   step_time_regression(ctx) {
-    const target = pickStep(ctx, null, 200);
+    // A step people spend time on (a form, a payment): a 2-4-fold change there is tens of seconds or more.
+    const target = pickStep(ctx, null, 200, STEP_TIME_MIN_SECONDS);
     if (!target) return undefined;
     const factor = ctx.rng.uniform(2, 4);
     const length = ctx.rng.int(5, 20);
@@ -464,7 +463,7 @@ const DRAWS: Record<IncidentType, Draw> = {
   release_slow_step(ctx) {
     const chosen = pickRelease(ctx);
     if (!chosen) return undefined;
-    const target = pickStep(ctx, chosen.platform, 100 / chosen.share);
+    const target = pickStep(ctx, chosen.platform, 100 / chosen.share, STEP_TIME_MIN_SECONDS);
     if (!target) return undefined;
     const factor = ctx.rng.uniform(2.5, 3.5);
     return {
@@ -499,7 +498,6 @@ const DRAWS: Record<IncidentType, Draw> = {
     const s = ctx.scenario;
     const day = startDay(ctx, 1, last(s) - 1);
     if (day === undefined || ctx.dataDays.has(day)) return undefined;
-    ctx.dataDays.add(day);
     return {
       injection: { kind: 'double_load', day },
       from: day,
@@ -516,7 +514,6 @@ function holiday(ctx: Context, declared: boolean): Drawn | undefined {
   const s = ctx.scenario;
   const day = startDay(ctx, 1, last(s) - 1);
   if (day === undefined || ctx.dataDays.has(day)) return undefined;
-  ctx.dataDays.add(day);
   const factor = ctx.rng.uniform(0.35, 0.65);
   const note = ctx.rng.pick(['founders day', 'harvest holiday', 'river festival', 'lantern night', 'spring fair', 'civic holiday']);
   return {
@@ -538,9 +535,17 @@ export function drawIncidents(scenario: Scenario, rng: Rng): void {
   let n = 0;
   for (const type of rng.shuffle(INCIDENT_TYPES)) {
     if (n >= wanted) break;
-    const drawn = DRAWS[type](ctx);
+    // A fault no flow could be asked to see teaches nothing about recall: draw again (other days, targets,
+    // magnitudes), and after three tries the next type takes its place.
+    let drawn: Drawn | undefined;
+    for (let attempt = 0; attempt < 3 && !drawn; attempt++) {
+      const candidate = DRAWS[type](ctx);
+      if (candidate && [...candidate.affected.values()].some((people) => people >= MIN_AFFECTED_PEOPLE)) drawn = candidate;
+    }
     if (!drawn) continue;
     n++;
+    if (drawn.version && drawn.platform) ctx.usedReleases.add(`${drawn.platform.id}|${drawn.version}`);
+    if (['volume', 'early_stop', 'late_rows', 'double_load'].includes(drawn.injection.kind)) ctx.dataDays.add(drawn.from);
     ctx.windows.push({ from: drawn.from, to: drawn.to });
     scenario.injections.push(drawn.injection);
     if (drawn.declare) scenario.calendar.push({ day: drawn.from, note: drawn.declare });
