@@ -240,6 +240,18 @@ function pickParam(ctx: Context, test: (type: string, declared: boolean, hasValu
   return options.length > 0 ? ctx.rng.pick(options) : undefined;
 }
 
+/** A step event of one platform and a run of `minDays`-`maxDays` days for a fault of that platform's tracking. */
+function platformEvent(ctx: Context, minPeople: number, minDays: number, maxDays: number) {
+  const platform = ctx.rng.pick(ctx.scenario.platforms);
+  const target = pickStep(ctx, platform, minPeople);
+  if (!target) return undefined;
+  const event = target.flow.steps[target.step]!.event;
+  const length = ctx.rng.int(minDays, maxDays);
+  const from = startDay(ctx, length);
+  if (from === undefined) return undefined;
+  return { platform, event, from, to: from + length - 1, version: null, affected: eventReach(ctx.scenario, event, platform) };
+}
+
 type Draw = (ctx: Context) => Drawn | undefined;
 
 const DRAWS: Record<IncidentType, Draw> = {
@@ -294,39 +306,23 @@ const DRAWS: Record<IncidentType, Draw> = {
     };
   },
   platform_event_missing(ctx) {
-    const platform = ctx.rng.pick(ctx.scenario.platforms);
-    const target = pickStep(ctx, platform, 150);
-    if (!target) return undefined;
-    const event = target.flow.steps[target.step]!.event;
-    const length = ctx.rng.int(1, 3);
-    const from = startDay(ctx, length);
-    if (from === undefined) return undefined;
+    const drawn = platformEvent(ctx, 150, 1, 3);
+    if (!drawn) return undefined;
+    const { platform, event, from, to } = drawn;
     return {
-      injection: { kind: 'event_missing', platform: platform.index, event, from, to: from + length - 1 },
-      from,
-      to: from + length - 1,
-      platform,
-      version: null,
-      affected: eventReach(ctx.scenario, event, platform),
-      description: `${platform.id} sends no ${event} at all for ${length} day(s) (a tag or SDK outage)`,
+      injection: { kind: 'event_missing', platform: platform.index, event, from, to },
+      ...drawn,
+      description: `${platform.id} sends no ${event} at all for ${to - from + 1} day(s) (a tag or SDK outage)`,
     };
   },
   platform_event_twice(ctx) {
-    const platform = ctx.rng.pick(ctx.scenario.platforms);
-    const target = pickStep(ctx, platform, 100);
-    if (!target) return undefined;
-    const event = target.flow.steps[target.step]!.event;
-    const length = ctx.rng.int(3, 10);
-    const from = startDay(ctx, length);
-    if (from === undefined) return undefined;
+    const drawn = platformEvent(ctx, 100, 3, 10);
+    if (!drawn) return undefined;
+    const { platform, event, from, to } = drawn;
     return {
-      injection: { kind: 'event_twice', platform: platform.index, event, from, to: from + length - 1 },
-      from,
-      to: from + length - 1,
-      platform,
-      version: null,
-      affected: eventReach(ctx.scenario, event, platform),
-      description: `${platform.id} sends every ${event} twice, milliseconds apart, on all versions for ${length} days`,
+      injection: { kind: 'event_twice', platform: platform.index, event, from, to },
+      ...drawn,
+      description: `${platform.id} sends every ${event} twice, milliseconds apart, on all versions for ${to - from + 1} days`,
     };
   },
   declared_holiday: (ctx) => holiday(ctx, true),

@@ -174,29 +174,31 @@ export function scoreRun(run: ScenarioRun): SeedResult {
 
 const ratio = (num: number, den: number) => (den > 0 ? num / den : Number.NaN);
 
-function figures(seeds: readonly SeedResult[]): Figures {
-  const counted = seeds.flatMap((s) => s.truths.filter((t) => !t.truth.minor));
+/** Recall, labels and duplication over a set of truths (minor ones left out). */
+function truthFigures(truths: readonly TruthResult[]) {
+  const counted = truths.filter((t) => !t.truth.minor);
   const found = counted.filter((t) => t.found);
+  const perFound = (count: (t: TruthResult) => number) => ratio(found.reduce((sum, t) => sum + count(t), 0), found.length);
+  return {
+    truths: counted.length,
+    found: found.length,
+    recall: ratio(found.length, counted.length),
+    labelAccuracy: perFound((t) => Number(t.labelRight)),
+    labelAccuracyAll: perFound((t) => Number(t.allLabelsRight)),
+    incidentsPerTruth: perFound((t) => t.incidents.length),
+    alertsPerTruth: perFound((t) => t.incidents.filter(isAlert).length),
+  };
+}
+
+function figures(seeds: readonly SeedResult[]): Figures {
   const falseIncidents = seeds.reduce((sum, s) => sum + s.falseIncidents.length, 0);
   const falseAlerts = seeds.reduce((sum, s) => sum + s.falseIncidents.filter(isAlert).length, 0);
   const cleanFlowDays = seeds.reduce((sum, s) => sum + s.cleanFlowDays, 0);
   return {
-    recall: ratio(found.length, counted.length),
-    labelAccuracy: ratio(found.filter((t) => t.labelRight).length, found.length),
-    labelAccuracyAll: ratio(found.filter((t) => t.allLabelsRight).length, found.length),
-    incidentsPerTruth: ratio(
-      found.reduce((sum, t) => sum + t.incidents.length, 0),
-      found.length,
-    ),
-    alertsPerTruth: ratio(
-      found.reduce((sum, t) => sum + t.incidents.filter(isAlert).length, 0),
-      found.length,
-    ),
+    ...truthFigures(seeds.flatMap((s) => s.truths)),
     falsePerFlow30d: ratio(30 * falseIncidents, cleanFlowDays),
     falseAlertsPerFlow30d: ratio(30 * falseAlerts, cleanFlowDays),
     coldStartFindings: seeds.reduce((sum, s) => sum + s.coldStart, 0),
-    truths: counted.length,
-    found: found.length,
     falseIncidents,
     cleanFlowDays,
   };
@@ -205,29 +207,17 @@ function figures(seeds: readonly SeedResult[]): Figures {
 function typeRows(seeds: readonly SeedResult[]): TypeRow[] {
   return INCIDENT_TYPES.map((type): TypeRow => {
     const all = seeds.flatMap((s) => s.truths.filter((t) => t.truth.type === type));
-    const counted = all.filter((t) => !t.truth.minor);
-    const found = counted.filter((t) => t.found);
     const labels = new Map<string, number>();
-    for (const t of found) {
+    for (const t of all.filter((t) => t.found && !t.truth.minor)) {
       const first = firstIncident(t.incidents);
-      const name = labelRight(first, t.truth) ? first.causeLabel : `${first.causeLabel}${t.truth.expectedLabel === first.causeLabel ? ' (wrong scope)' : ''}`;
+      const name = labelRight(first, t.truth) || first.causeLabel !== t.truth.expectedLabel ? first.causeLabel : `${first.causeLabel} (wrong scope)`;
       labels.set(name, (labels.get(name) ?? 0) + 1);
     }
+    const { labelAccuracyAll: _all, ...figures } = truthFigures(all);
     return {
       type,
-      truths: counted.length,
-      minor: all.length - counted.length,
-      found: found.length,
-      recall: ratio(found.length, counted.length),
-      labelAccuracy: ratio(found.filter((t) => t.labelRight).length, found.length),
-      incidentsPerTruth: ratio(
-        found.reduce((sum, t) => sum + t.incidents.length, 0),
-        found.length,
-      ),
-      alertsPerTruth: ratio(
-        found.reduce((sum, t) => sum + t.incidents.filter(isAlert).length, 0),
-        found.length,
-      ),
+      ...figures,
+      minor: all.length - figures.truths,
       labels: [...labels].sort((a, b) => b[1] - a[1] || a[0].localeCompare(b[0])).map(([label, n]) => `${label} ${n}`).join(', '),
     };
   });
