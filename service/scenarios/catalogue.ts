@@ -152,18 +152,29 @@ function startDay(ctx: Context, length: number, latest = last(ctx.scenario) - le
   return ctx.rng.int(lo, latest);
 }
 
-/** Flows that send `event` (as a step, with `where` when given, or as a watched event), with the people a day reaching it on `platform`. */
+/**
+ * People a day on `platform` sending the rows of `event` a fault touches (the
+ * step with `where` when given, else every row of the event), for every flow
+ * that watches the event at all: plumbline counts an event's people per
+ * platform once, so every flow watching it sees the same series move.
+ */
 function eventReach(s: Scenario, event: string, platform: PlatformPlan, where?: string | null): Map<string, number> {
-  const out = new Map<string, number>();
+  let people = 0;
+  const watching: string[] = [];
   for (const flow of s.flows) {
-    let people = 0;
+    let watches = false;
     flow.steps.forEach((step, i) => {
-      if (step.event === event && (where === undefined || step.where === where)) people = Math.max(people, stepJourneys(s, flow, platform, i));
+      if (step.event !== event) return;
+      watches = true;
+      if (where === undefined || step.where === where) people = Math.max(people, stepJourneys(s, flow, platform, i));
     });
-    if (flow.watch?.event === event) people = Math.max(people, stepJourneys(s, flow, platform, flow.watch.afterStep) * flow.watch.share);
-    if (people > 0) out.set(flow.id, people);
+    if (flow.watch?.event === event) {
+      watches = true;
+      if (where === undefined || where === null) people = Math.max(people, stepJourneys(s, flow, platform, flow.watch.afterStep) * flow.watch.share);
+    }
+    if (watches) watching.push(flow.id);
   }
-  return out;
+  return new Map(people > 0 ? watching.map((flow) => [flow, people]) : []);
 }
 
 function scale(map: Map<string, number>, factor: number): Map<string, number> {

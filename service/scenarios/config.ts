@@ -49,9 +49,11 @@ export function flowFile(scenario: Scenario, flowId: string): Record<string, unk
     if (!event) continue;
     const params: Record<string, unknown> = {};
     for (const param of event.params.filter((p) => p.declared)) params[param.key] = contract(param);
-    // A declared result event also declares its outcome key.
+    // A declared event declares the key its steps are told apart by too: with its values for a result event, as text for a view event.
     const isResult = event.whereKey !== null && flow.steps[flow.steps.length - 1]!.event === name && flow.failureValue !== null;
-    if (isResult && event.params.some((p) => p.declared)) params[event.whereKey!] = { type: 'string', enum: resultValues(flow), required: true };
+    if (event.whereKey !== null && event.params.some((p) => p.declared)) {
+      params[event.whereKey] = isResult ? { type: 'string', enum: resultValues(flow), required: true } : { type: 'string', required: true };
+    }
     if (Object.keys(params).length > 0) events[name] = { params };
   }
   const minutes = (seconds: number) => `${Math.round(seconds / 60)}m`;

@@ -19,7 +19,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
 import { chooseDevServer, safeUrl } from '../db/dev-server.js';
-import { CI_SEEDS, COMPACT, FULL_RANGE } from './model.js';
+import { CI_SEEDS, COMPACT, FULL_RANGE, drawScenario } from './model.js';
 import type { ScenarioRun } from './replay.js';
 import { formatDiagnostics, formatScore, namedFigures } from './report.js';
 import { score } from './score.js';
@@ -56,6 +56,7 @@ const seeds = args.seed !== undefined
 const reserved = seeds.filter((seed) => CI_SEEDS.includes(seed));
 if (reserved.length > 0) usage(`seeds ${reserved.join(', ')} belong to the CI test (test/scenarios/evaluate.test.ts); evaluate on other seeds`);
 const jobs = Math.min(integer('jobs', args.jobs, 1), seeds.length);
+const limits = args.compact ? COMPACT : FULL_RANGE;
 
 const started = performance.now();
 const server = await chooseDevServer(['EVAL_DATABASE_URL', 'TEST_DATABASE_URL']);
@@ -64,7 +65,12 @@ log(`database: ${server.source} (${safeUrl(server.url)}); seeds ${seeds[0]}..${s
 const runs: ScenarioRun[] = [];
 const failures: string[] = [];
 try {
-  const queue = [...seeds];
+  // The largest scenarios first, so the last one to finish is a small one.
+  const size = (seed: number) => {
+    const plan = drawScenario(seed, limits);
+    return plan.days * plan.journeysPerDay;
+  };
+  const queue = [...seeds].sort((a, b) => size(b) - size(a));
   const worker = join(dirname(fileURLToPath(import.meta.url)), `worker${import.meta.url.endsWith('.ts') ? '.ts' : '.js'}`);
   await Promise.all(
     Array.from({ length: jobs }, async () => {
@@ -83,7 +89,7 @@ try {
             child.once('exit', onExit);
             const request: WorkerRequest = {
               seed,
-              options: { url: server.url, limits: args.compact ? COMPACT : FULL_RANGE, everyDay: args['every-day'], keep: args.keep },
+              options: { url: server.url, limits, everyDay: args['every-day'], keep: args.keep },
             };
             child.send(request);
           });
