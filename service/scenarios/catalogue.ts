@@ -154,31 +154,33 @@ function startDay(ctx: Context, length: number, latest = last(ctx.scenario) - le
 
 /**
  * People a day on `platform` sending the rows of `event` a fault touches (the
- * step with `where` when given, else every row of the event), for every flow
- * that watches the event at all: plumbline counts an event's people per
- * platform once, so every flow watching it sees the same series move.
+ * step with `where` when given, else every row of the event; `fraction` of
+ * them, e.g. a release's share), for every flow
+ * that watches the event: plumbline counts an event's people per platform
+ * once, so every flow watching it sees the same series. A flow that sees the
+ * fault only through another flow's step of a shared event gets it as minor
+ * (0 people): the event's people hardly move, as they still send its other steps.
  */
-function eventReach(s: Scenario, event: string, platform: PlatformPlan, where?: string | null): Map<string, number> {
+function eventReach(s: Scenario, event: string, platform: PlatformPlan, where?: string | null, fraction = 1): Map<string, number> {
   let people = 0;
-  const watching: string[] = [];
+  const watching: Array<{ flow: string; owns: boolean }> = [];
   for (const flow of s.flows) {
     let watches = false;
+    let touched = 0;
     flow.steps.forEach((step, i) => {
       if (step.event !== event) return;
       watches = true;
-      if (where === undefined || step.where === where) people = Math.max(people, stepJourneys(s, flow, platform, i));
+      if (where === undefined || step.where === where) touched = Math.max(touched, stepJourneys(s, flow, platform, i));
     });
     if (flow.watch?.event === event) {
       watches = true;
-      if (where === undefined || where === null) people = Math.max(people, stepJourneys(s, flow, platform, flow.watch.afterStep) * flow.watch.share);
+      if (where === undefined || where === null) touched = Math.max(touched, stepJourneys(s, flow, platform, flow.watch.afterStep) * flow.watch.share);
     }
-    if (watches) watching.push(flow.id);
+    if (!watches) continue;
+    people = Math.max(people, touched * fraction);
+    watching.push({ flow: flow.id, owns: touched > 0 });
   }
-  return new Map(people > 0 ? watching.map((flow) => [flow, people]) : []);
-}
-
-function scale(map: Map<string, number>, factor: number): Map<string, number> {
-  return new Map([...map].map(([k, v]) => [k, v * factor]));
+  return new Map(people > 0 ? watching.map(({ flow, owns }) => [flow, owns ? people : 0]) : []);
 }
 
 function allFlows(s: Scenario, people: (flow: FlowPlan) => number): Map<string, number> {
@@ -272,14 +274,13 @@ const DRAWS: Record<IncidentType, Draw> = {
     const target = pickStep(ctx, chosen.platform, MIN_AFFECTED_PEOPLE / chosen.share);
     if (!target) return undefined;
     const step = target.flow.steps[target.step]!;
-    const reach = eventReach(ctx.scenario, step.event, chosen.platform, step.where);
     return {
       injection: { kind: 'drop_step', platform: chosen.platform.index, version: chosen.release.version, event: step.event, where: step.where, fraction: 1 },
       from: chosen.release.firstDay,
       to: chosen.end,
       platform: chosen.platform,
       version: chosen.release.version,
-      affected: scale(reach, chosen.share),
+      affected: eventReach(ctx.scenario, step.event, chosen.platform, step.where, chosen.share),
       description: `${chosen.platform.id} ${chosen.release.version} stops sending ${step.event}${step.where ? ` (${step.where})` : ''}, step ${step.name} of ${target.flow.id}`,
     };
   },
@@ -295,7 +296,7 @@ const DRAWS: Record<IncidentType, Draw> = {
       platform: chosen.platform,
       version: chosen.release.version,
       versions: chosen.versions,
-      affected: scale(eventReach(ctx.scenario, found.event.name, chosen.platform), chosen.share),
+      affected: eventReach(ctx.scenario, found.event.name, chosen.platform, undefined, chosen.share),
       description: `${chosen.platform.id} ${chosen.release.version} sends \`${to}\` instead of \`${found.param.key}\` in ${found.event.name}, and so do later releases`,
     };
   },
@@ -446,7 +447,7 @@ const DRAWS: Record<IncidentType, Draw> = {
       platform: chosen.platform,
       version: chosen.release.version,
       versions: chosen.versions,
-      affected: scale(eventReach(ctx.scenario, found.event.name, chosen.platform), chosen.share * share),
+      affected: eventReach(ctx.scenario, found.event.name, chosen.platform, undefined, chosen.share * share),
       description: `${chosen.platform.id} ${chosen.release.version} sends ${found.event.name}.${found.param.key} = "${value}" (a value never sent before) in ${Math.round(share * 100)}% of events`,
     };
   },
@@ -463,7 +464,7 @@ const DRAWS: Record<IncidentType, Draw> = {
       to: chosen.end,
       platform: chosen.platform,
       version: chosen.release.version,
-      affected: scale(eventReach(ctx.scenario, step.event, chosen.platform, step.where), chosen.share * fraction),
+      affected: eventReach(ctx.scenario, step.event, chosen.platform, step.where, chosen.share * fraction),
       description: `${chosen.platform.id} ${chosen.release.version} fails to send ${step.event}${step.where ? ` (${step.where})` : ''} (step ${step.name} of ${target.flow.id}) for ${Math.round(fraction * 100)}% of its users`,
     };
   },
