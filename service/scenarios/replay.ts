@@ -31,7 +31,10 @@ import { COLD_START_DAYS, dayOf, drawScenario, lastDay, type DrawLimits, FULL_RA
 /** An incident as the scorer sees it. */
 export interface ObservedIncident {
   id: string;
+  /** The flow the scorer reads it for: one of `flows`. */
   flow: string;
+  /** Every flow the incident holds back (several for a data delay). */
+  flows: string[];
   platform: string | null;
   version: string | null;
   causeLabel: string;
@@ -231,6 +234,7 @@ async function observe(rt: Runtime, scenario: Scenario): Promise<Pick<ScenarioRu
     return {
       id: i.id,
       flow: i.flow,
+      flows: i.flows,
       platform: i.platform,
       version: i.version,
       causeLabel: i.causeLabel,

@@ -10,7 +10,9 @@
  * - each incident goes to one truth: the compatible one it describes best
  *   (right label first, then exact platform, exact version, nearest start);
  *   an incident compatible with none is false;
- * - a truth is found when at least one incident went to it.
+ * - a truth is found when at least one incident went to it;
+ * - an incident that holds back several flows (a data delay) is read once
+ *   for each of them, as each flow's owner reads it.
  */
 import { addDays } from '../../checks/time.js';
 import { INCIDENT_TYPES, type IncidentType, type Truth } from './catalogue.js';
@@ -152,7 +154,8 @@ function cleanDays(run: ScenarioRun, flow: string): number {
 export function scoreRun(run: ScenarioRun): SeedResult {
   const assigned = new Map<string, ObservedIncident[]>(run.truths.map((t) => [t.id, []]));
   const falseIncidents: ObservedIncident[] = [];
-  for (const incident of run.incidents) {
+  const perFlow = run.incidents.flatMap((incident) => (incident.flows.length > 0 ? incident.flows : [incident.flow]).map((flow) => ({ ...incident, flow })));
+  for (const incident of perFlow) {
     const best = run.truths.filter((t) => compatible(incident, t)).sort((a, b) => compareRanks(rank(incident, a), rank(incident, b)))[0];
     if (best) assigned.get(best.id)!.push(incident);
     else falseIncidents.push(incident);

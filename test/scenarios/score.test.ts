@@ -35,7 +35,8 @@ function incident(over: Partial<ObservedIncident> = {}): ObservedIncident {
   next += 1;
   return {
     id: `i${next}`,
-    flow: 'buy',
+    flow: over.flow ?? 'buy',
+    flows: [over.flow ?? 'buy'],
     platform: 'android',
     version: '8.3.0',
     causeLabel: 'release',
@@ -181,6 +182,16 @@ const CASES: Case[] = [
       incident({ version: null, causeLabel: 'behaviour', platform: 'android', openedDay: '2026-03-25' }),
     ],
     expect: { recall: 1, labelAccuracy: 0.5 },
+  },
+  {
+    name: 'an incident holding back two flows is read once for each: both truths found, and false in a third flow',
+    truths: [
+      truth({ id: 'd#1/buy', type: 'early_stop', platform: null, version: null, expectedLabel: 'data_delay', firstDay: '2026-03-30', lastDay: '2026-03-30' }),
+      truth({ id: 'd#1/signup', flow: 'signup', type: 'early_stop', platform: null, version: null, expectedLabel: 'data_delay', firstDay: '2026-03-30', lastDay: '2026-03-30' }),
+    ],
+    incidents: [incident({ platform: null, version: null, causeLabel: 'data_delay', openedDay: '2026-03-30', flows: ['buy', 'signup', 'browse'] })],
+    // Clean flow-days: flow buy's 30 judged days less 03-29..03-30 (the other flows have none).
+    expect: { recall: 1, labelAccuracy: 1, incidentsPerTruth: 1, falseIncidents: 1, cleanFlowDays: 28 },
   },
   {
     name: 'notes and muted incidents count as incidents, not as alerts',
