@@ -5,13 +5,17 @@
  *
  * Method: the seasonal detector of the statistics library (`judgeLatest` in
  * checks/stats/seasonal-detector.ts: robust STL with a periodic weekly
- * seasonal on a 12-week trailing window, residual = value - seasonal - median
- * level, then the generalized ESD at alpha = `sensitivity`; the weekday median
- * with less than four weeks of usable history). Calendar days and the series'
- * days already judged anomalous are passed as `excluded`: they stay out of the
- * fit and the level, and the ESD removes them first as the outliers they are.
- * Funnel series (rates, times) wait for the day's conversion window to pass,
- * like the `conversion` check.
+ * seasonal on a 12-week trailing window, a local level from the last two
+ * weeks, the day scored out of sample, then the generalized ESD at alpha =
+ * `sensitivity`; the weekday median with less than four weeks of usable
+ * history). Counts are judged on log(1 + x): their weekly pattern and their
+ * noise are multiplicative (a quiet Sunday has a fraction of a Monday's
+ * spread), so one scale on the raw counts would hide weekend collapses and
+ * flag busy weekdays; rates and step times as they are. Calendar days and
+ * the series' days already judged anomalous are passed as `excluded`: they
+ * stay out of the fit and the level, and the ESD removes them first as the
+ * outliers they are. Funnel series (rates, times) wait for the day's
+ * conversion window to pass, like the `conversion` check.
  *
  * Robust residual scoring: robustness sits in the fit, not in the ESD. The
  * STL's outer loop gives outlying days (past incidents, unannounced peaks, the
@@ -29,25 +33,30 @@
  * Defaults, from the same replay (a flow runs dozens of series a day, so false
  * findings add up): `sensitivity` 0.005 rather than the 0.01 first sketched
  * (no loss of incident days on the demo, fewer false findings); `direction`
- * down: every clean-day finding left at 0.005 was a rise (a busy day lifting
- * the people of every step together, about +25%), and rises on declared high
- * days (month-start renewals) would add some 200 calendar notes per five
- * months. Slower steps are rises of a median time: set `direction: both` (or
- * `up`) to hear about them.
+ * down for counts and rates: every clean-day finding left at 0.005 was a rise
+ * (a busy day lifting the people of every step together, about +25%), and
+ * rises on declared high days (month-start renewals) would add some 200
+ * calendar notes per five months. Step times have their own
+ * `time_direction`, up by default: a slower step is the bad news (a release
+ * that tripled a step's time went unreported while it shared `direction`).
  *
  * Floors: a statistically clear move can still be too small to matter, so a
- * finding also needs a practical change: `min_change` (relative) for counts,
- * `min_change_pp` (percentage points) for rates, `min_change_seconds` for step
- * times; and a volume: the expected count, the rate's denominator or the timed
- * people of the day at least `min_people`. A rate's band is also widened to
- * the day's own binomial error (`withSamplingError`).
+ * finding also needs a practical change: `min_change` (relative) for counts;
+ * for rates `min_change_pp` percentage points or, for low rates, a change of
+ * `min_change_relative` of the usual rate (a step at 2% can never move 3
+ * points, yet falling to 1% or to 0 is news); for step times
+ * `min_change_seconds` or a factor of `min_change_factor` (a 16-second step
+ * taking 45 s has moved less than 30 s, yet nearly tripled); and a volume:
+ * the expected count, the rate's denominator or the timed people of the day
+ * at least `min_people`. A rate's band is also widened to the day's own
+ * binomial error (`withSamplingError`).
  *
  * The test is always two-sided at `sensitivity`; `direction` only filters
  * which side is reported, so the band stays finite on both sides.
  *
  * Score: the detector's score, (residual - center) / scale at the ESD step
  * where the day was examined: signed, in standard deviations of the window's
- * residuals.
+ * residuals (of log(1 + x) for counts; evidence `scale` likewise).
  */
 import { z } from 'zod';
 import { formatCount, formatNumber, formatPercent, renderMessage } from '../messages.js';
@@ -65,16 +74,22 @@ const WEEKDAYS = ['Sunday', 'Monday', 'Tuesday', 'Wednesday', 'Thursday', 'Frida
 export const options = z.strictObject({
   /** Significance level of the detector's ESD test (alpha): lower reports fewer, larger departures. */
   sensitivity: z.number().gt(0).lt(1).default(0.005),
-  /** Which departures are reported: drops (default), rises or both. */
+  /** Which departures of counts and rates are reported: drops (default), rises or both. */
   direction: z.enum(['down', 'up', 'both']).default('down'),
+  /** Which departures of median step times are reported: slower (up, default), faster (down) or both. */
+  time_direction: z.enum(['down', 'up', 'both']).default('up'),
   /** Fewest people behind a value: the expected count, the rate's denominator, the timed people. */
   min_people: z.number().int().min(1).default(100),
   /** Smallest relative change of a count worth a finding. */
   min_change: percent().default(0.2),
-  /** Smallest change of a conversion rate worth a finding, in percentage points. */
+  /** Smallest change of a conversion rate worth a finding, in percentage points ... */
   min_change_pp: z.number().min(0).max(100).default(3),
-  /** Smallest change of a median step time worth a finding, in seconds. */
+  /** ... or as a share of the usual rate, whichever is reached first (low rates: a step at 2% falling to 1%). */
+  min_change_relative: percent().default(0.5),
+  /** Smallest change of a median step time worth a finding, in seconds ... */
   min_change_seconds: z.number().min(0).default(30),
+  /** ... or as a factor of the usual time (2: twice as slow or half as long), whichever is reached first. */
+  min_change_factor: z.number().min(1).default(2),
   severity: severity('warn'),
 });
 type Options = z.output<typeof options>;
@@ -102,13 +117,24 @@ function change(kind: SeriesKind, observed: number, expected: number): { value: 
   return { value: relative, text: `${sign}${(100 * Math.abs(relative)).toFixed(0)}%` };
 }
 
-/** Whether the departure is large enough in practice, and the series big enough, to be worth a finding. */
+/**
+ * Whether the departure is large enough in practice, and the series big
+ * enough, to be worth a finding. Rates and times pass on either floor, the
+ * absolute or the relative one, so low rates and short steps can be reported.
+ */
 function worthReporting(series: JudgedSeries, judged: SeasonalJudgement, o: Options): boolean {
   const { observed, expected } = judged;
   if (series.kind === 'count') return expected >= o.min_people && Math.abs(observed - expected) >= o.min_change * expected;
   if (!(series.support[series.support.length - 1]! >= o.min_people)) return false;
-  if (series.kind === 'rate') return 100 * Math.abs(observed - expected) >= o.min_change_pp;
-  return Math.abs(observed - expected) >= o.min_change_seconds;
+  const moved = Math.abs(observed - expected);
+  if (series.kind === 'rate') return 100 * moved >= o.min_change_pp || moved >= o.min_change_relative * expected;
+  const factor = Math.max(observed, expected) / Math.min(observed, expected);
+  return moved >= o.min_change_seconds || factor >= o.min_change_factor;
+}
+
+/** The detector's options for a series: counts on log(1 + x). */
+function detectorOptions(series: JudgedSeries, alpha: number, excluded: boolean[]): { alpha: number; excluded: boolean[]; transform: 'log1p' | 'none' } {
+  return { alpha, excluded, transform: series.kind === 'count' ? 'log1p' : 'none' };
 }
 
 /**
@@ -124,18 +150,6 @@ function everyWeekdayObserved(values: Float64Array, excluded: readonly boolean[]
     if (!Number.isNaN(values[i]!) && (!excluded[i] || i === last)) seen.add(i % 7);
   }
   return seen.size === 7;
-}
-
-/**
- * The detector's `expected` is seasonal + median level, while its band is
- * centred on that plus the mean residual of the ESD step: for a lopsided
- * weekly profile (low weekends) the median level sits above the mean one and
- * `expected` runs high by the difference. The band's centre is what the test
- * actually compared the day with, so the finding's usual value, its change and
- * its floors use that.
- */
-function centred(judged: SeasonalJudgement): SeasonalJudgement {
-  return { ...judged, expected: (judged.low + judged.high) / 2 };
 }
 
 /**
@@ -164,7 +178,7 @@ function finding(input: CheckInput, o: Options, platform: string, series: Judged
   const high = new Float64Array(input.days.length).fill(Number.NaN);
   for (let i = Math.max(0, last - EXCERPT_DAYS + 1); i <= last; i++) {
     if (Number.isNaN(series.values[i]!)) continue;
-    let past = i === last ? judged : centred(judgeLatest(series.values.subarray(0, i + 1), { alpha: o.sensitivity, excluded: excluded.slice(0, i + 1) }));
+    let past = i === last ? judged : judgeLatest(series.values.subarray(0, i + 1), detectorOptions(series, o.sensitivity, excluded.slice(0, i + 1)));
     if (i !== last && series.kind === 'rate') past = withSamplingError(past, series.support[i]!);
     if (past.method !== 'insufficient-history') [low[i], high[i]] = clampBand(series.kind, past.low, past.high);
   }
@@ -223,10 +237,11 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
       const skip = baselineExclusions(series.seriesKey, input.anomalous, input.calendar);
       const excluded = input.days.map((day) => skip.has(day));
       if (!everyWeekdayObserved(series.values, excluded)) continue;
-      const detected = centred(judgeLatest(series.values, { alpha: o.sensitivity, excluded }));
+      const detected = judgeLatest(series.values, detectorOptions(series, o.sensitivity, excluded));
       const judged = series.kind === 'rate' ? withSamplingError(detected, series.support[last]!) : detected;
       if (!judged.anomalous) continue;
-      if (o.direction !== 'both' && o.direction !== (judged.direction === 'below' ? 'down' : 'up')) continue;
+      const wanted = series.kind === 'seconds' ? o.time_direction : o.direction;
+      if (wanted !== 'both' && wanted !== (judged.direction === 'below' ? 'down' : 'up')) continue;
       if (!worthReporting(series, judged, o)) continue;
       findings.push(finding(input, o, platform, series, judged, excluded));
     }

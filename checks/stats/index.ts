@@ -17,7 +17,7 @@ export { newcombeDifference } from './newcombe-difference.js';
 export type { DifferenceInterval } from './newcombe-difference.js';
 export { MAD_SCALE, mad, median, robustLocationScale } from './robust.js';
 export { SEASONAL_DEFAULTS, judgeEachDay, judgeLatest } from './seasonal-detector.js';
-export type { OnlineJudgement, SeasonalJudgement, SeasonalMethod, SeasonalOptions } from './seasonal-detector.js';
+export type { OnlineJudgement, SeasonalJudgement, SeasonalMethod, SeasonalOptions, SeasonalTransform } from './seasonal-detector.js';
 export { stl, stlParameters } from './stl.js';
 export type { StlOptions, StlParameters, StlResult } from './stl.js';
 export { tCdf, tQuantile } from './student-t.js';

@@ -1,6 +1,14 @@
 import { describe, expect, it } from 'vitest';
 import { seasonalHybridEsd } from '../../checks/stats/hybrid-esd.js';
-import { normal, prng } from './support.js';
+import { normal, prng, readFixture } from './support.js';
+
+interface RStep {
+  index: number;
+  statistic: number;
+  critical: number;
+  center: number;
+  scale: number;
+}
 
 const WEEKLY = [0, 40, 55, 60, 58, 30, -120];
 
@@ -15,6 +23,28 @@ describe('seasonal hybrid ESD (Hochenbaum, Vallis and Kejariwal 2017)', () => {
     const y = Array.from({ length: 56 }, (_, t) => 100 + weekly[t % 7]! + (t % 3));
     y[40] = 60;
     expect(seasonalHybridEsd(y, { period: 7 }).anomalies).toEqual([40]);
+  });
+
+  // Outside reference: the paper's recipe computed with R's stl, median, mad and qt (test/fixtures/seasonal-esd/runner.R).
+  // Outliers of 3 to 6 noise sd, one of them (index 119) only 0.1% above its critical value and one (index 47) just
+  // below: a wrong alpha, MAD constant, sidedness or degrees of freedom changes the answer.
+  it("agrees with R step by step: statistics, critical values, centres, scales and the anomalies", () => {
+    const r = JSON.parse(readFixture('seasonal-esd', 'hybrid-esd.json')) as { input: number[]; seasonal: number[]; median: number; steps: RStep[]; anomalies: number[] };
+    const ours = seasonalHybridEsd(r.input, { period: 7, maxAnomalies: 0.1, alpha: 0.05 });
+    expect(ours.anomalies).toEqual(r.anomalies);
+    expect(ours.median).toBeCloseTo(r.median, 9);
+    for (let i = 0; i < r.seasonal.length; i++) expect(ours.seasonal[i]!, `seasonal[${i}]`).toBeCloseTo(r.seasonal[i]!, 6);
+    expect(ours.esd.steps).toHaveLength(r.steps.length);
+    r.steps.forEach((step, i) => {
+      const got = ours.esd.steps[i]!;
+      expect(got.index, `step ${i + 1}`).toBe(step.index);
+      for (const key of ['statistic', 'critical', 'center', 'scale'] as const) {
+        expect(Math.abs(got[key] - step[key]), `step ${i + 1} ${key}: ours ${got[key]}, R ${step[key]}`).toBeLessThan(1e-9 * Math.max(1, Math.abs(step[key])));
+      }
+    });
+    // The near miss that decides the count: step 5 just above its critical value, step 6 below.
+    expect(r.steps[4]!.statistic / r.steps[4]!.critical).toBeGreaterThan(1);
+    expect(r.steps[4]!.statistic / r.steps[4]!.critical).toBeLessThan(1.002);
   });
 
   it('finds injected spikes and dips in a weekly series, and nothing else', () => {

@@ -3,6 +3,7 @@ import { generalizedEsd } from '../../checks/stats/generalized-esd.js';
 import { seasonalHybridEsd } from '../../checks/stats/hybrid-esd.js';
 import type { OnlineJudgement } from '../../checks/stats/seasonal-detector.js';
 import { judgeEachDay, judgeLatest } from '../../checks/stats/seasonal-detector.js';
+import { NAB_PROFILES, nabScore } from './nab-score.js';
 import { normal, prng, readFixture } from './support.js';
 
 interface Labels {
@@ -26,8 +27,10 @@ function daysToHoliday(date: string): number {
   return Math.min(...labels.usFederalHolidays.dates.map((h) => Math.abs(Date.parse(h) - Date.parse(date)) / DAY));
 }
 
-/** Flagged days, per-window hits, day precision and event recall, printed for the record. */
-function score(flagged: number[], title: string): { missing: string[]; farFromHolidays: string[] } {
+const windowRows = labels.windows.map((w): [number, number] => [dates.indexOf(w.from), dates.indexOf(w.to)]);
+
+/** Flagged days, per-window hits, day precision and event recall, and NAB's window score, printed for the record. */
+function score(flagged: number[], title: string): { missing: string[]; farFromHolidays: string[]; precision: number; recall: number } {
   const hits = labels.windows.map((w) => ({ ...w, hit: flagged.some((i) => dates[i]! >= w.from && dates[i]! <= w.to) }));
   const inside = flagged.filter((i) => inWindow(dates[i]!) !== undefined);
   const outside = flagged.filter((i) => inWindow(dates[i]!) === undefined);
@@ -41,24 +44,43 @@ function score(flagged: number[], title: string): { missing: string[]; farFromHo
       `  windows hit: ${hits.map((h) => `${h.name} ${h.hit ? 'yes' : 'no'}`).join(', ')}`,
       `  precision (flagged days inside a labelled window) ${precision.toFixed(2)}, recall (labelled events with a flagged day) ${recall.toFixed(2)}`,
       `  flagged outside the windows and more than 3 days from a federal holiday: ${farFromHolidays.length} ${farFromHolidays.join(' ')}`,
+      `  NAB window score (normalised, 0 = flag nothing, 100 = each window on its first day): ${Object.entries(NAB_PROFILES)
+        .map(([name, profile]) => `${name} ${nabScore(dates.length, windowRows, flagged, profile).normalised.toFixed(1)}`)
+        .join(', ')}`,
     ].join('\n'),
   );
-  return { missing: hits.filter((h) => h.required && !h.hit).map((h) => h.name), farFromHolidays };
+  return { missing: hits.filter((h) => h.required && !h.hit).map((h) => h.name), farFromHolidays, precision, recall };
 }
 
 describe('seasonal detector on real data: NYC taxi passengers (NAB)', () => {
-  it('online at default sensitivity: a flagged day in each required window, at most 3 unexplained flags', () => {
-    const judgements = judgeEachDay(passengers);
-    const flagged = judgements.filter((j) => j.anomalous);
+  // Passenger counts are judged on log(1 + x), as the seasonal check judges every count (checks/stats/README.md).
+  it('online at the shipped sensitivity 0.005: every required window, precision at least 0.7, recall 0.8, at most 3 unexplained flags', () => {
+    const flagged = judgeEachDay(passengers, { alpha: 0.005, transform: 'log1p' }).filter((j) => j.anomalous);
     for (const j of flagged) {
       console.log(`  ${dates[j.index]} ${j.method} observed ${j.observed} expected ${j.expected.toFixed(0)} band ${j.low.toFixed(0)}..${j.high.toFixed(0)} score ${j.score.toFixed(2)} critical ${j.critical.toFixed(2)}`);
     }
-    const { missing, farFromHolidays } = score(
+    const result = score(
       flagged.map((j) => j.index),
-      'online (each day from its own past, flagged days kept out of later baselines)',
+      'online at sensitivity 0.005 on log(1 + x) (each day from its own past, flagged days kept out of later baselines)',
     );
-    expect(missing, 'labelled windows with no flagged day').toEqual([]);
-    expect(farFromHolidays.length, `unexplained flags: ${farFromHolidays.join(', ')}`).toBeLessThanOrEqual(3);
+    expect(result.missing, 'labelled windows with no flagged day').toEqual([]);
+    // Measured: 10 of 14 flagged days inside a window (0.71); 4 of 5 windows (the marathon, not required, is missed).
+    expect(result.precision).toBeGreaterThanOrEqual(0.7);
+    expect(result.recall).toBeGreaterThanOrEqual(0.8);
+    expect(result.farFromHolidays.length, `unexplained flags: ${result.farFromHolidays.join(', ')}`).toBeLessThanOrEqual(3);
+  });
+
+  it("online at the detector's default 0.05: every required window, and no unexplained flag beyond the return from summer", () => {
+    const flagged = judgeEachDay(passengers, { transform: 'log1p' }).filter((j) => j.anomalous);
+    const result = score(
+      flagged.map((j) => j.index),
+      'online at alpha 0.05 on log(1 + x)',
+    );
+    expect(result.missing, 'labelled windows with no flagged day').toEqual([]);
+    // 2014-09-05 to 09-08, four to seven days after Labor Day: the city back from summer, +19% on the same weekday a
+    // week before, a level shift the local level sees (unlabelled in NAB). Nothing else outside the windows.
+    const unexplained = result.farFromHolidays.filter((day) => !(day >= '2014-09-05' && day <= '2014-09-08'));
+    expect(unexplained, `unexplained flags: ${result.farFromHolidays.join(', ')}`).toEqual([]);
   });
 
   it('uses the weekday median before four weeks of history and STL after (the switch point)', () => {
@@ -73,6 +95,139 @@ describe('seasonal detector on real data: NYC taxi passengers (NAB)', () => {
     const { missing, farFromHolidays } = score(batch.anomalies, 'batch S-H-ESD over the whole series');
     expect(missing).toEqual([]);
     expect(farFromHolidays.length).toBeLessThanOrEqual(3);
+  });
+});
+
+interface RCase {
+  case: string;
+  alpha: number;
+  transform: 'none' | 'log1p';
+  input: number[];
+  expected: number;
+  low: number;
+  high: number;
+  score: number;
+  critical: number;
+  scale: number;
+  anomalous: boolean;
+}
+
+describe("seasonal detector against its recipe computed in R (test/fixtures/seasonal-esd/runner.R: R's stl, median, sd, qt)", () => {
+  const reference = JSON.parse(readFixture('seasonal-esd', 'detector.json')) as { r_version: string; cases: RCase[] };
+  // R runs stl's 15 robustness passes; the detector stops by the authors' stlez rule (README): values agree to within
+  // 1% of the band's width (measured: at most 0.6%), the verdict and the critical value exactly.
+  for (const c of reference.cases) {
+    it(`${c.case}: verdict, expected value, band, score and critical value as R computes them`, () => {
+      const ours = judgeLatest(c.input, { alpha: c.alpha, transform: c.transform });
+      expect(ours.method).toBe('stl-esd');
+      expect(ours.anomalous).toBe(c.anomalous);
+      expect(ours.critical).toBeCloseTo(c.critical, 9);
+      const width = c.high - c.low;
+      for (const key of ['expected', 'low', 'high'] as const) expect(Math.abs(ours[key] - c[key]), `${key}: ours ${ours[key]}, R ${c[key]}`).toBeLessThan(0.01 * width);
+      expect(Math.abs(ours.score - c.score), `score: ours ${ours.score}, R ${c.score}`).toBeLessThan(0.05);
+      expect(Math.abs(ours.scale / c.scale - 1), `scale: ours ${ours.scale}, R ${c.scale}`).toBeLessThan(0.01);
+    });
+  }
+});
+
+describe('seasonal detector on trending series (simulated: level 1000, weekly pattern, noise sd 10, +-0.5 a day)', () => {
+  const weekly = [0, 40, 55, 60, 58, 30, -120];
+  const SERIES = 250;
+  const series = (slope: number, seed: number) => {
+    const rand = prng(seed);
+    return Array.from({ length: 85 }, (_, t) => 1000 + slope * t + weekly[t % 7]! + 10 * normal(rand));
+  };
+
+  // Issue 15: residuals against the window's median put a trending series' latest day half a window's growth away
+  // (+21 here), so a rising series hid drops (caught about 1% of the time at 0.005, 5% at 0.05) and a falling one spikes.
+  it(`catches a 6 sd drop and a 6 sd spike on rising and falling series (${SERIES} series each), and does not lag`, () => {
+    const rows: string[] = [];
+    for (const slope of [0.5, -0.5]) {
+      const caught = { drop05: 0, spike05: 0, drop005: 0, spike005: 0 };
+      let lag = 0;
+      for (let s = 0; s < SERIES; s++) {
+        const y = series(slope, 1000 + s);
+        const truth = 1000 + slope * 84 + weekly[84 % 7]!;
+        lag += judgeLatest(y).expected - y[84]! - (truth - y[84]!);
+        for (const [key, shift, alpha] of [['drop05', -60, 0.05], ['spike05', 60, 0.05], ['drop005', -60, 0.005], ['spike005', 60, 0.005]] as const) {
+          if (judgeLatest([...y.slice(0, 84), y[84]! + shift], { alpha }).anomalous) caught[key]++;
+        }
+      }
+      const power = Object.fromEntries(Object.entries(caught).map(([k, v]) => [k, v / SERIES]));
+      rows.push(`slope ${slope}: power at alpha 0.05 drop ${power.drop05!.toFixed(3)} spike ${power.spike05!.toFixed(3)}; at 0.005 drop ${power.drop005!.toFixed(3)} spike ${power.spike005!.toFixed(3)}; mean expected - truth ${(lag / SERIES).toFixed(2)}`);
+      expect(power.drop05, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
+      expect(power.spike05, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
+      expect(power.drop005, rows.at(-1)).toBeGreaterThanOrEqual(0.75);
+      expect(power.spike005, rows.at(-1)).toBeGreaterThanOrEqual(0.75);
+      expect(Math.abs(lag / SERIES), rows.at(-1)).toBeLessThan(3);
+    }
+    console.log(`6 sd moves on trending series, ${SERIES} series per slope:\n  ${rows.join('\n  ')}`);
+  });
+
+  it('flags a clean latest day as often as an exchangeable day of the window (within sampling error), on flat and trending series', () => {
+    // At alpha 0.5 the rates are large enough to measure. The reference: the chance that a given one of 85 independent
+    // normal values is among the ESD's outliers (the rate the latest day should have if it were like the others).
+    const alpha = 0.5;
+    const rand = prng(4242);
+    let nominalHits = 0;
+    const NOMINAL = 20_000;
+    for (let r = 0; r < NOMINAL; r++) {
+      if (generalizedEsd(Array.from({ length: 85 }, () => normal(rand)), { maxOutliers: 8, alpha }).outliers.includes(84)) nominalHits++;
+    }
+    const nominal = nominalHits / NOMINAL;
+    const N = 2000;
+    // Binomial standard error of the difference of the two simulated rates.
+    const se = Math.sqrt(nominal * (1 - nominal) * (1 / N + 1 / NOMINAL));
+    const lines = [`exchangeable rate ${nominal.toFixed(4)} (${NOMINAL} samples); 3 standard errors of a difference at ${N} series: ${(3 * se).toFixed(4)}`];
+    for (const slope of [0, 0.5]) {
+      let hits = 0;
+      for (let s = 0; s < N; s++) if (judgeLatest(series(slope, 50_000 + s), { alpha }).anomalous) hits++;
+      lines.push(`slope ${slope}: latest day flagged in ${hits} of ${N} clean series (${(hits / N).toFixed(4)})`);
+      expect(Math.abs(hits / N - nominal), lines.join('\n')).toBeLessThan(3 * se);
+    }
+    console.log(lines.join('\n'));
+  });
+});
+
+describe('seasonal detector on counts: log(1 + x) (multiplicative weekly pattern and noise)', () => {
+  // Weekends at a third of a weekday, noise 5% of the day's level: on the raw scale a weekend's spread is a third of a
+  // weekday's, and one scale for both hides a weekend collapse.
+  const mult = [0.3, 1, 1.05, 1.1, 1.05, 0.95, 0.3];
+  const counts = (seed: number, n = 84) => {
+    const rand = prng(seed);
+    return Array.from({ length: n }, (_, t) => Math.round(2000 * mult[t % 7]! * Math.exp(0.05 * normal(rand))));
+  };
+
+  it('flags a Sunday down 40% on the log scale, which the raw scale misses', () => {
+    // Index 84 is a Sunday (84 % 7 = 0): usual 600.
+    const y = [...counts(21), 360];
+    expect(judgeLatest(y, { alpha: 0.005 }).anomalous).toBe(false);
+    const judged = judgeLatest(y, { alpha: 0.005, transform: 'log1p' });
+    expect(judged, JSON.stringify(judged)).toMatchObject({ anomalous: true, direction: 'below', observed: 360 });
+    expect(judged.expected).toBeGreaterThan(540);
+    expect(judged.expected).toBeLessThan(660);
+    // The band comes back in counts and is wider above than below (a ratio band).
+    expect(judged.high - judged.expected).toBeGreaterThan(judged.expected - judged.low);
+  });
+
+  it('raises no more false alarms on clean counts than on the raw scale', () => {
+    let logFlags = 0;
+    let rawFlags = 0;
+    let judged = 0;
+    for (let seed = 1; seed <= 6; seed++) {
+      const y = counts(300 + seed, 250);
+      const log = judgeEachDay(y, { alpha: 0.005, transform: 'log1p' });
+      judged += log.filter((j) => j.method !== 'insufficient-history').length;
+      logFlags += log.filter((j) => j.anomalous).length;
+      rawFlags += judgeEachDay(y, { alpha: 0.005 }).filter((j) => j.anomalous).length;
+    }
+    console.log(`clean multiplicative counts, ${judged} judged days at 0.005: ${logFlags} flagged on log(1 + x), ${rawFlags} on the raw scale`);
+    expect(logFlags / judged).toBeLessThan(0.005);
+    expect(logFlags).toBeLessThanOrEqual(rawFlags);
+  });
+
+  it('rejects negative values on the log scale', () => {
+    expect(() => judgeLatest([...counts(1, 40), -1], { transform: 'log1p' })).toThrow(/needs values >= 0/);
   });
 });
 
@@ -131,13 +286,15 @@ describe('seasonal detector edge cases', () => {
   const rand = prng(3);
   const base = Array.from({ length: 70 }, (_, t) => 200 + [0, 10, 12, 14, 11, -20, -30][t % 7]! + 4 * normal(rand));
 
-  it('gives the example of its doc comment', () => {
+  it('gives the example of its doc comment (numbers from R, test/fixtures/seasonal-esd/detector.json)', () => {
     const profile = [55, 58, 59, 60, 57, 48, 45];
     const rates = Array.from({ length: 56 }, (_, t) => profile[t % 7]! + ((t * 7) % 5) * 0.4);
     const r = judgeLatest([...rates, 41]);
     expect(r.method).toBe('stl-esd');
     expect(r.anomalous).toBe(true);
-    expect([r.expected, r.low, r.high].map((v) => Number(v.toFixed(1)))).toEqual([58.3, 49.1, 62.1]);
+    // R: expected 55.4668, low 48.6016, high 62.3321, score -6.5920, critical 3.1282.
+    expect([r.expected, r.low, r.high].map((v) => Number(v.toFixed(1)))).toEqual([55.5, 48.6, 62.3]);
+    expect(r.score).toBeCloseTo(-6.59, 2);
   });
 
   it('judges nothing with too little history, then switches at the documented point', () => {
