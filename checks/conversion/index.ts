@@ -1,8 +1,8 @@
 /**
  * `conversion`: step-to-step and end-to-end conversion of a flow's funnel per
  * platform (and all platforms together), judged on the latest day against a
- * pooled baseline of recent days, with binomial uncertainty and a minimum
- * practical effect.
+ * baseline of recent days, with binomial and day-to-day uncertainty and a
+ * minimum practical effect.
  *
  * Method, for each transition (`funnel-rates.ts`) on each platform:
  * - The day is judged only once its cohort's conversion window has passed
@@ -11,32 +11,35 @@
  *   back the other checks with a gate.
  * - Baseline: the `baseline_days` most recent earlier days with people at the
  *   step, leaving out calendar days and the days already judged anomalous for
- *   this series; their successes and trials are pooled. It needs at least
+ *   this series. It needs at least
  *   MIN_BASELINE_DAYS of them. Weekdays are not matched: a rate is a share of
  *   the people who got that far, so the weekly swing of traffic largely cancels
  *   out of it (the demo's rates show no weekday pattern), and 28 days hold each
  *   weekday four times, so the pool is balanced. Where rates do swing by
  *   weekday the spread below widens the band instead of raising findings; the
  *   `seasonal` check judges rates against their weekday profile.
- * - Spread: daily cohorts may vary more than a binomial draw (traffic mix,
- *   campaigns). The dispersion factor phi = max(1, Pearson chi-square / df) of
- *   the baseline days' 2 x k table (chi-square-homogeneity.ts) scales the
- *   variance: the quasi-binomial correction (P. McCullagh and J. A. Nelder
- *   1989, "Generalized Linear Models", 2nd ed., section 4.5 on
- *   over-dispersion; section cited from memory).
- * - Test: pooled two-proportion z-test of the day against the baseline
- *   (two-proportion-z.ts), z / sqrt(phi) against the normal critical value at
- *   `sensitivity` / m, one-sided for `direction` down or up. Multiple testing:
- *   m = transitions x (platforms + 1) of the flow (Bonferroni), so the chance
- *   that an unchanged flow raises any conversion finding on a day is at most
- *   `sensitivity` under the binomial model: with the default 0.001, about one
- *   false finding per flow in 1,000 days, before the effect floor. Measured on
- *   eight generated demo variants (seeds 7, 11, 12, 13, with and without
- *   incidents; 2 flows x 124 days each): 2 distinct false findings in the 4
- *   seeds' 992 flow-days, both at |z| of 4.0 to 4.6.
+ * - Spread: daily cohorts vary more than a binomial draw (traffic mix,
+ *   campaigns), and large cohorts make the binomial part vanish while that
+ *   day-to-day variation stays. Each day's rate has variance p (1 - p) / n +
+ *   tau^2, tau^2 the between-day variance of the baseline days
+ *   (DerSimonian-Laird), and the day is compared with their random-effects
+ *   mean (`day-proportion.ts`, checked against R's metafor).
+ * - Test: score = (day's rate - baseline mean) / sqrt(p (1 - p) / n + tau^2 +
+ *   SE(mean)^2), one-sided for `direction` down or up, against the critical
+ *   value at `sensitivity` / m: t on k - 1 degrees of freedom when the
+ *   baseline days vary more than binomially (tau^2 estimated from k days), the
+ *   normal when they do not. Multiple testing: m = transitions x (platforms +
+ *   1) of the flow (Bonferroni), so the chance that an unchanged flow raises
+ *   any conversion finding on a day is at most about `sensitivity`: with the
+ *   default 0.001, one false finding per flow in 1,000 days, before the effect
+ *   floor. (The earlier quasi-binomial test, z / sqrt(phi) against the normal,
+ *   ran at about 4 times that with 28 days of large cohorts and 35 times with
+ *   7: phi estimated from k - 1 degrees of freedom needs t.)
  * - Effect floor: the day must also differ from the baseline by at least
- *   `min_effect_pp` percentage points; large cohorts make tiny moves
- *   significant, and those are not worth waking anyone for.
+ *   `min_effect_pp` percentage points or by `min_effect_relative` of the
+ *   baseline rate, whichever is smaller: large cohorts make tiny moves
+ *   significant and those are not worth waking anyone for, while a step
+ *   converting at 2% can never move 3 points yet falling to 0 is news.
  * - Volume floor: at least `min_people` people at the step's denominator on
  *   the day (fewer: the rate is not judged).
  * - All platforms together (platform null): judged only for a transition no
@@ -45,18 +48,21 @@
  *   one-platform incident. Its baseline leaves out the days any platform's
  *   series of that transition was anomalous.
  *
- * Finding: observed = the day's rate (fraction), expected = the baseline rate
+ * Finding: observed = the day's rate (fraction), expected = the baseline mean
  * with the band of rates that would not have been reported (the larger of the
- * effect floor and the critical z times the standard error, using the baseline
- * rate's variance); score = z / sqrt(phi) (signed, in standard errors);
- * evidence carries the counts, the day's Wilson interval and the Newcombe
- * interval of the difference, both at the Bonferroni-adjusted level.
+ * effect floor and the critical value times the standard error); score as
+ * above (signed, in standard errors). Evidence carries the counts, the
+ * between-day standard deviation, the degrees of freedom and the interval of
+ * the difference (day - baseline) on the verdict's own model: difference +-
+ * critical x standard error, so it excludes 0 on the reported side exactly
+ * when the test is significant (one-sided directions: the two-sided interval
+ * at 1 - 2 x alpha, whose end on the reported side is the one-sided bound).
  */
 import { z } from 'zod';
 import { formatCount, formatPercent, renderMessage } from '../messages.js';
-import { optionsFor, severity } from '../options.js';
+import { optionsFor, percent, severity } from '../options.js';
 import { baselineExclusions, excerpt } from '../series.js';
-import { chiSquareHomogeneity, newcombeDifference, twoProportionZ, wilson, zForConfidence } from '../stats/index.js';
+import { criticalValue, predictDayProportion } from '../stats/index.js';
 import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../types.js';
 import { anomalousSince, calendarSeverity } from '../findings.js';
 import { conversionSettled, funnelTotals, rateSeries, transitions, type RateSeries, type Transition } from '../funnel.js';
@@ -68,8 +74,10 @@ const EXCERPT_DAYS = 28;
 const ALL_PLATFORMS = 'all';
 
 export const options = z.strictObject({
-  /** Smallest change worth a finding, in percentage points of conversion. */
+  /** Smallest change worth a finding, in percentage points of conversion ... */
   min_effect_pp: z.number().min(0).max(100).default(3),
+  /** ... or as a share of the baseline rate, whichever is smaller (low rates: a step at 2% falling to 1%). */
+  min_effect_relative: percent().default(0.5),
   /** Chance that an unchanged flow raises any conversion finding on a day (Bonferroni over transitions x (platforms + all together)). */
   sensitivity: z.number().gt(0).lt(1).default(0.001),
   /** Fewest people at the step's denominator on the day for its rate to be judged. */
@@ -91,13 +99,17 @@ interface RateJudgement {
   observed: number;
   successes: number;
   trials: number;
+  /** Random-effects mean of the baseline days' rates. */
   baseline: number;
   baselineSuccesses: number;
   baselineTrials: number;
   baselineDays: number;
-  /** Dispersion factor of the baseline days, >= 1. */
-  phi: number;
-  /** z / sqrt(phi). */
+  /** Between-day variance of the baseline days' rates. */
+  tau2: number;
+  /** Standard error of the day's rate minus the baseline. */
+  se: number;
+  /** Degrees of freedom of the critical value (Infinity: the normal). */
+  df: number;
   score: number;
   critical: number;
   low: number;
@@ -127,18 +139,18 @@ function judgeRate(series: RateSeries, index: number, leaveOut: readonly boolean
   if (ns.length < MIN_BASELINE_DAYS) return undefined;
   const baselineSuccesses = xs.reduce((a, b) => a + b, 0);
   const baselineTrials = ns.reduce((a, b) => a + b, 0);
-  const baseline = baselineSuccesses / baselineTrials;
-  const homogeneity = chiSquareHomogeneity(xs, ns);
-  const phi = Math.max(1, homogeneity.statistic / homogeneity.df);
+  const predicted = predictDayProportion(xs, ns, successes, trials);
   const alpha = o.sensitivity / tests;
-  const critical = zForConfidence(o.direction === 'both' ? 1 - alpha : 1 - 2 * alpha);
-  const score = twoProportionZ(successes, trials, baselineSuccesses, baselineTrials).z / Math.sqrt(phi);
+  const critical = criticalValue(o.direction === 'both' ? alpha / 2 : alpha, predicted.df);
   const observed = successes / trials;
+  const baseline = predicted.center;
   const effect = observed - baseline;
-  const halfWidth = Math.max(o.min_effect_pp / 100, critical * Math.sqrt(phi * baseline * (1 - baseline) * (1 / trials + 1 / baselineTrials)));
+  const se = Math.sqrt(predicted.variance);
+  // The practical floor: points or a share of the baseline rate, whichever is reached first.
+  const floor = Math.min(o.min_effect_pp / 100, o.min_effect_relative * baseline);
+  const halfWidth = Math.max(floor, critical * se);
   const direction = effect < 0 ? 'down' : 'up';
-  const flagged =
-    Math.abs(score) >= critical && Math.abs(effect) * 100 >= o.min_effect_pp && (o.direction === 'both' || o.direction === direction);
+  const flagged = Math.abs(predicted.score) >= critical && Math.abs(effect) >= floor && (o.direction === 'both' || o.direction === direction);
   return {
     observed,
     successes,
@@ -147,8 +159,10 @@ function judgeRate(series: RateSeries, index: number, leaveOut: readonly boolean
     baselineSuccesses,
     baselineTrials,
     baselineDays: ns.length,
-    phi,
-    score,
+    tau2: predicted.tau2,
+    se,
+    df: predicted.df,
+    score: predicted.score,
     critical,
     low: Math.max(0, baseline - halfWidth),
     high: Math.min(1, baseline + halfWidth),
@@ -170,10 +184,9 @@ function finding(input: CheckInput, o: Options, platform: string | null, transit
   }
   const flagged = new Set([...(input.anomalous[seriesKey] ?? []), input.day]);
   const { severity: findingSeverity, calendar } = calendarSeverity(input, judged.direction, o.severity);
-  const adjusted = 1 - o.sensitivity / tests;
-  const dayInterval = wilson(judged.successes, judged.trials, adjusted);
-  const difference = newcombeDifference(judged.successes, judged.trials, judged.baselineSuccesses, judged.baselineTrials, adjusted);
   const effectPp = 100 * (judged.observed - judged.baseline);
+  // The verdict's own interval of the difference (see the file comment).
+  const difference = judged.observed - judged.baseline;
   const since = anomalousSince(input, seriesKey);
   const target = flow.steps[transition.to]!;
   return {
@@ -214,12 +227,11 @@ function finding(input: CheckInput, o: Options, platform: string | null, transit
       effect_pp: Number(effectPp.toFixed(2)),
       z: Number(judged.score.toFixed(3)),
       z_critical: Number(judged.critical.toFixed(3)),
-      dispersion: Number(judged.phi.toFixed(3)),
+      between_day_sd: Number(Math.sqrt(judged.tau2).toFixed(5)),
+      df: Number.isFinite(judged.df) ? judged.df : null,
       tests,
-      day_low: dayInterval.low,
-      day_high: dayInterval.high,
-      difference_low: difference.low,
-      difference_high: difference.high,
+      difference_low: difference - judged.critical * judged.se,
+      difference_high: difference + judged.critical * judged.se,
     },
   };
 }
@@ -265,7 +277,7 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
 
 export const conversionCheck: CheckModule<typeof options> = {
   id: 'conversion',
-  description: 'Step-to-step and end-to-end funnel conversion per platform against its recent baseline, with binomial uncertainty and a minimum practical effect.',
+  description: 'Step-to-step and end-to-end funnel conversion per platform against its recent baseline, with binomial and day-to-day uncertainty and a minimum practical effect.',
   options,
   messages,
   run,

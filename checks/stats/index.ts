@@ -4,6 +4,8 @@
  * the tests against outside references). Checks import from here.
  */
 export { chiSquareHomogeneity } from './chi-square-homogeneity.js';
+export { criticalValue, predictDayProportion } from './day-proportion.js';
+export type { DayProportionPrediction } from './day-proportion.js';
 export type { ChiSquareResult } from './chi-square-homogeneity.js';
 export { esdCriticalValue, generalizedEsd } from './generalized-esd.js';
 export type { Alternative, EsdStep, GeneralizedEsdOptions, GeneralizedEsdResult } from './generalized-esd.js';
@@ -13,8 +15,6 @@ export { seasonalHybridEsd } from './hybrid-esd.js';
 export type { SeasonalHybridEsdOptions, SeasonalHybridEsdResult } from './hybrid-esd.js';
 export { loess } from './loess.js';
 export type { LoessOptions } from './loess.js';
-export { newcombeDifference } from './newcombe-difference.js';
-export type { DifferenceInterval } from './newcombe-difference.js';
 export { MAD_SCALE, mad, median, robustLocationScale } from './robust.js';
 export { SEASONAL_DEFAULTS, judgeEachDay, judgeLatest } from './seasonal-detector.js';
 export type { OnlineJudgement, SeasonalJudgement, SeasonalMethod, SeasonalOptions, SeasonalTransform } from './seasonal-detector.js';
