@@ -3,21 +3,23 @@
  * release, platform, segment, calendar, behaviour. The first test that passes
  * labels the finding; each returns its numbers.
  */
-import { formatCount, formatPercent } from '../messages.js';
+import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
+import { formatCount, formatNumber, formatPercent } from '../messages.js';
 import { explain, type ValueChange } from '../stats/explanatory-power.js';
 import { rateComparison } from '../stats/rate-comparison.js';
 import { twoProportionZ } from '../stats/two-proportion-z.js';
-import { ALL_VERSIONS, type CheckInput, type Finding } from '../types.js';
+import { weekday } from '../time.js';
+import { ALL_VERSIONS, type CheckInput, type Day, type Finding } from '../types.js';
 import type { Cause } from './types.js';
 import {
   acrossSlices,
   baselineDays,
   baselineOf,
+  causeMeasureOf,
   dimensionValues,
   isCount,
   dimensionsIn,
   firstSeen,
-  measureOf,
   measureOn,
   rate,
   versionsOn,
@@ -44,7 +46,10 @@ export const CAUSE_THRESHOLDS = {
   segmentMaxValues: 2,
   /** Share of watched events x platforms with volume findings for "everything moved together". */
   movedTogetherShare: 0.75,
-  /** A platform's or a segment's move must be at least this many standard errors from its usual level. */
+  /**
+   * A platform's or a segment's move must be at least this many standard errors from its usual level: the day's
+   * forecast (weekday-matched for counts) and an overdispersed error (`expectation`). Common practice (three sigma).
+   */
   minZ: 3,
 };
 
@@ -53,35 +58,102 @@ function isRateMeasure(measure: Measure): boolean {
   return measure.kind === 'event_people' || measure.kind === 'events_per_person' || measure.kind === 'step_people';
 }
 
+/** qnorm(0.9): a log-normal's 90th percentile sits this many sigma above its median. */
+const Z90 = 1.2815515655446004;
+/** pi / 2: a sample median's variance over the mean's under normality (H. Cramér 1946, section 28.5; cited from memory). */
+const MEDIAN_VARIANCE = Math.PI / 2;
+
+/** Variance of a day's mean log median time: (pi/2) sigma^2 / timed people, sigma from ln(p90 / median) / qnorm(0.9). */
+function logMedianVariance(ratio: Ratio): number {
+  if (!(ratio.den > 0)) return Number.NaN;
+  const sigma = (ratio.spread ?? 0) / ratio.den / Z90;
+  return (MEDIAN_VARIANCE * sigma * sigma) / ratio.den;
+}
+
 /**
- * How many standard errors the day's value sits from the usual one: a count
- * against a Poisson error, a ratio of people against a binomial one, events
- * per person through the rate comparison.
+ * The judged day's value of a measure in a slice, what it was expected to be,
+ * and the variance of the difference (the cause tests' "standard errors"):
+ * - counts: the mean of the same weekday among the baseline days (all of them
+ *   with fewer than two such days), quasi-Poisson variance phi x mean x
+ *   (1 + 1/k), phi the Pearson chi-square of the baseline days around their
+ *   own weekdays' means over its degrees of freedom (P. McCullagh and J. A.
+ *   Nelder 1989, "Generalized Linear Models", 2nd ed., section 4.5; cited from
+ *   memory), at least 1;
+ * - ratios of people: today's denominator at the baseline rate, binomial
+ *   (proportions) or Poisson (counts that may exceed their exposure) variance
+ *   times (1 + today's denominator / the baseline's), times phi likewise;
+ * - step times: the baseline's mean log median, the variance of today's and
+ *   the baseline's log medians (`logMedianVariance`), times phi likewise.
  */
-function changeZ(measure: Measure, today: Ratio, usual: Ratio): number {
-  if (today.den === 0 || usual.den === 0) return 0;
+function expectation(input: CheckInput, measure: Measure, slice: Slice, days: readonly Day[]): { value: number; forecast: number; variance: number } {
+  const today = measureOn(input, measure, input.day, slice);
+  const history = days.map((day) => ({ day, ratio: measureOn(input, measure, day, slice) }));
   if (isCount(measure)) {
-    const mean = usual.num / usual.den;
-    return (today.num - mean) / Math.sqrt(Math.max(mean, 1));
+    const byWeekday = new Map<number, number[]>();
+    for (const { day, ratio } of history) byWeekday.set(weekday(day), [...(byWeekday.get(weekday(day)) ?? []), ratio.num]);
+    const mean = (values: readonly number[]) => values.reduce((a, b) => a + b, 0) / values.length;
+    const same = byWeekday.get(weekday(input.day)) ?? [];
+    const pool = same.length >= 2 ? same : history.map((h) => h.ratio.num);
+    let chi = 0;
+    for (const values of byWeekday.values()) {
+      const m = mean(values);
+      for (const v of values) chi += (v - m) ** 2 / Math.max(m, 1);
+    }
+    const df = history.length - byWeekday.size;
+    const phi = df >= 1 ? Math.max(1, chi / df) : 1;
+    const forecast = pool.length > 0 ? mean(pool) : Number.NaN;
+    return { value: today.num, forecast, variance: phi * Math.max(forecast, 1) * (1 + 1 / Math.max(pool.length, 1)) };
   }
-  if (isRateMeasure(measure)) return usual.num > 0 || today.num > 0 ? rateComparison(today.num, today.den, usual.num, usual.den).z : 0;
-  const p = usual.num / usual.den;
-  const se = Math.sqrt((p * (1 - p)) / today.den);
-  return se > 0 ? (today.num / today.den - p) / se : 0;
+  const usual = baselineOf(input, measure, slice, days);
+  const used = history.filter((h) => h.ratio.den > 0);
+  if (measure.kind === 'step_seconds') {
+    const center = rate(usual);
+    const unit = logMedianVariance(usual) * usual.den;
+    const chi = used.reduce((sum, h) => sum + (rate(h.ratio) - center) ** 2 / logMedianVariance(h.ratio), 0);
+    const phi = used.length >= 2 && Number.isFinite(chi) ? Math.max(1, chi / (used.length - 1)) : 1;
+    return { value: rate(today), forecast: center, variance: phi * (unit / today.den + unit / usual.den) };
+  }
+  const r = rate(usual);
+  const cell = (den: number) => (isRateMeasure(measure) ? den * r : den * r * (1 - r));
+  const chi = used.reduce((sum, h) => sum + (cell(h.ratio.den) > 0 ? (h.ratio.num - h.ratio.den * r) ** 2 / cell(h.ratio.den) : 0), 0);
+  const phi = used.length >= 2 ? Math.max(1, chi / (used.length - 1)) : 1;
+  return { value: today.num, forecast: today.den * r, variance: phi * cell(today.den) * (1 + today.den / usual.den) };
+}
+
+/** How many standard errors the day's value sits from its forecast (0 without a usable forecast or spread). */
+function changeZ(input: CheckInput, measure: Measure, slice: Slice, days: readonly Day[]): number {
+  const { value, forecast, variance } = expectation(input, measure, slice, days);
+  const z = (value - forecast) / Math.sqrt(variance);
+  return Number.isFinite(z) ? z : 0;
 }
 
 function compare(measure: Measure, a: Ratio, b: Ratio): { z: number; pValue: number } {
+  if (measure.kind === 'step_seconds') {
+    // Log median times: normal with the medians' variances (Cramér's asymptotic variance of the median).
+    const z = (rate(a) - rate(b)) / Math.sqrt(logMedianVariance(a) + logMedianVariance(b));
+    return Number.isFinite(z) ? { z, pValue: 2 * normalCdf(-Math.abs(z), 0, 1) } : { z: 0, pValue: 1 };
+  }
   if (isRateMeasure(measure)) return rateComparison(a.num, a.den, b.num, b.den);
   return twoProportionZ(Math.round(a.num), Math.round(a.den), Math.round(b.num), Math.round(b.den));
 }
 
 const all = (platform: string | null): Slice => ({ platform, version: ALL_VERSIONS, dimension: '', value: '' });
 
-/** Relative change of the measure on the judged day against its baseline, in a slice. */
+/** Relative change of the measure on the judged day against its forecast (a count: its weekday's), in a slice. */
 function relativeChange(input: CheckInput, measure: Measure, slice: Slice, days: readonly string[]): number {
+  if (isCount(measure)) {
+    const { value, forecast } = expectation(input, measure, slice, days);
+    return forecast > 0 ? value / forecast - 1 : Number.NaN;
+  }
   const today = rate(measureOn(input, measure, input.day, slice));
   const usual = rate(baselineOf(input, measure, slice, days));
+  if (measure.kind === 'step_seconds') return Number.isFinite(today - usual) ? Math.exp(today - usual) - 1 : Number.NaN;
   return usual > 0 && Number.isFinite(today) ? today / usual - 1 : Number.NaN;
+}
+
+/** A ratio as the reader knows it: a time in seconds (from the mean log median), else the rate. */
+function level(measure: Measure, ratio: Ratio): number {
+  return measure.kind === 'step_seconds' ? Math.exp(rate(ratio)) : rate(ratio);
 }
 
 export interface Attribution {
@@ -160,7 +232,7 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
       },
     };
   }
-  const measure = measureOf(finding, input.flow);
+  const measure = causeMeasureOf(finding, input.flow);
   if (!measure) return undefined;
   const versions = versionsOn(input, platform, input.day);
   if (versions.length < 2) return undefined;
@@ -175,7 +247,10 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
     if (own.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
     const rest = versions
       .filter((v) => v !== version)
-      .reduce((acc, v) => ({ num: acc.num + byVersion.get(v)!.num, den: acc.den + byVersion.get(v)!.den }), { num: 0, den: 0 });
+      .reduce(
+        (acc, v) => ({ num: acc.num + byVersion.get(v)!.num, den: acc.den + byVersion.get(v)!.den, spread: (acc.spread ?? 0) + (byVersion.get(v)!.spread ?? 0) }),
+        { num: 0, den: 0, spread: 0 } as Ratio,
+      );
     if (rest.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
     // The version must sit on the side the platform moved to.
     if (Math.sign(rate(own) - rate(rest)) !== Math.sign(today - usual)) continue;
@@ -188,7 +263,7 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
   if (!(restShare <= CAUSE_THRESHOLDS.restShareOfChange)) return undefined;
   const seen = firstSeen(input, platform, best.version);
   const adoption = shareOfPlatform(input, platform, best.version);
-  const ownRate = rate(best.own);
+  const ownRate = level(measure, best.own);
   const what = releaseEffect(input, measure, best.own, best.rest);
   return {
     groupKey: `release|${platform}|${best.version}`,
@@ -206,8 +281,8 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
         versionNum: best.own.num,
         versionDen: best.own.den,
         versionRate: ownRate,
-        restRate: rate(best.rest),
-        platformUsual: usual,
+        restRate: level(measure, best.rest),
+        platformUsual: measure.kind === 'step_seconds' ? Math.exp(usual) : usual,
         pValue: best.pValue,
       },
     },
@@ -234,6 +309,10 @@ function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ra
       const counts = `${formatCount(own.num)} people at ${step} for ${formatCount(own.den)} entering`;
       return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
     }
+    case 'step_seconds': {
+      const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
+      return `takes a median ${formatNumber(level(measure, own))} s from ${from} to ${to} (${formatCount(own.den)} people timed), against ${formatNumber(level(measure, rest))} s on other versions`;
+    }
     case 'event_people': {
       const counts = `${formatCount(own.num)} people sending ${measure.event} for ${formatCount(own.den)} entering`;
       return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
@@ -259,13 +338,13 @@ function shareOfPlatform(input: CheckInput, platform: string, version: string): 
 function platformOnly(finding: Finding, input: CheckInput): Attribution | undefined {
   const platform = finding.platform;
   if (platform === null) return undefined;
-  const found = measureOf(finding, input.flow);
+  const found = causeMeasureOf(finding, input.flow);
   if (!found) return undefined;
   const measure = acrossSlices(found);
   const days = baselineDays(input);
   // The platform must really have moved on this measure, not by noise.
-  const z = changeZ(measure, measureOn(input, measure, input.day, all(platform)), baselineOf(input, measure, all(platform), days));
-  if (Math.abs(z) < CAUSE_THRESHOLDS.minZ) return undefined;
+  const z = changeZ(input, measure, all(platform), days);
+  if (!(Math.abs(z) >= CAUSE_THRESHOLDS.minZ)) return undefined;
   const own = relativeChange(input, measure, all(platform), days);
   const others = input.flow.platforms.filter((p) => p !== platform).map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) }));
   const measured = others.filter((o) => Number.isFinite(o.change));
@@ -292,21 +371,22 @@ function formatSigned(change: number): string {
 }
 
 function segment(finding: Finding, input: CheckInput): Attribution | undefined {
-  const found = measureOf(finding, input.flow);
+  const found = causeMeasureOf(finding, input.flow);
   if (!found) return undefined;
   const measure = acrossSlices(found);
-  if (measure.kind === 'step_count') return undefined;
+  if (measure.kind === 'step_count' || measure.kind === 'step_seconds') return undefined;
   const days = baselineDays(input);
   const candidates: Array<{ dimension: string; values: ValueChange[] }> = [];
+  const variances = new Map<string, number>();
   for (const dimension of dimensionsIn(input)) {
     const values: ValueChange[] = [];
     for (const value of dimensionValues(input, measure, dimension, input.day)) {
       const slice: Slice = { platform: finding.platform, version: ALL_VERSIONS, dimension, value };
-      const today = measureOn(input, measure, input.day, slice);
-      const usual = rate(baselineOf(input, measure, slice, days));
-      if (!Number.isFinite(usual)) continue;
-      // Forecast: a count's usual level, or today's exposure at the value's usual rate; actual: what happened.
-      values.push({ value, forecast: isCount(measure) ? usual : today.den * usual, actual: today.num });
+      // Forecast: a count's level on this weekday, or today's exposure at the value's usual rate; actual: what happened.
+      const { value: actual, forecast, variance } = expectation(input, measure, slice, days);
+      if (!Number.isFinite(forecast)) continue;
+      values.push({ value, forecast, actual });
+      variances.set(`${dimension}=${value}`, variance);
     }
     if (values.length >= 2) candidates.push({ dimension, values });
   }
@@ -322,9 +402,10 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
   const insideChange = inside.forecast > 0 ? inside.actual / inside.forecast - 1 : 0;
   const outsideChange = outside.forecast > 0 ? outside.actual / outside.forecast - 1 : 0;
   if (insideChange === 0 || Math.abs(outsideChange) > CAUSE_THRESHOLDS.segmentRestShare * Math.abs(insideChange)) return undefined;
-  // ... and the move must be larger than the noise of a segment that size (Poisson error of the forecast count, common practice).
-  const z = (inside.actual - inside.forecast) / Math.sqrt(Math.max(inside.forecast, 1));
-  if (Math.abs(z) < CAUSE_THRESHOLDS.minZ) return undefined;
+  // ... and the move must be larger than the noise of a segment that size (`expectation`: overdispersed, weekday-matched).
+  const insideVariance = explanation.values.reduce((sum, v) => sum + variances.get(`${explanation.dimension}=${v.value}`)!, 0);
+  const z = (inside.actual - inside.forecast) / Math.sqrt(insideVariance);
+  if (!(Math.abs(z) >= CAUSE_THRESHOLDS.minZ)) return undefined;
   const values = explanation.values.map((v) => v.value).join(', ');
   return {
     groupKey: `segment|${explanation.dimension}=${values}`,
@@ -375,7 +456,7 @@ function calendar(finding: Finding, input: CheckInput): Attribution | undefined 
 }
 
 function behaviour(finding: Finding, input: CheckInput): Attribution {
-  const found = measureOf(finding, input.flow);
+  const found = causeMeasureOf(finding, input.flow);
   const measure = found ? acrossSlices(found) : undefined;
   const days = baselineDays(input);
   const changes = measure

@@ -25,7 +25,12 @@ export type Measure =
   /** People sending an event, as a count per day (den 1): compares platforms and segments without version sizes. */
   | { kind: 'event_count'; event: string; label: string }
   /** People sending step k's event (any order), as a count per day. */
-  | { kind: 'step_count'; step: number; label: string };
+  | { kind: 'step_count'; step: number; label: string }
+  /**
+   * Median time from step k - 1 to step k, on the log scale: num = sum of timed x ln(median) over rows, den = timed
+   * people, spread = sum of timed x ln(p90 / median); num / den is the mean log median (a geometric mean of medians).
+   */
+  | { kind: 'step_seconds'; step: number; label: string };
 
 /**
  * The measure to compare platforms and segments on. A count normalised by
@@ -56,12 +61,26 @@ export interface Slice {
 export interface Ratio {
   num: number;
   den: number;
+  /** step_seconds only: sum over rows of timed x ln(p90 / median), the spread of the log times. */
+  spread?: number;
 }
 
 const ZERO: Ratio = { num: 0, den: 0 };
 
 export function rate(ratio: Ratio): number {
   return ratio.den > 0 ? ratio.num / ratio.den : Number.NaN;
+}
+
+/**
+ * The measure the cause analysis compares slices on: a finding's own measure
+ * (`measureOf`), except that a median step time is compared as a time.
+ */
+export function causeMeasureOf(finding: Finding, flow: FlowDefinition): Measure | undefined {
+  if (finding.metric === 'step_seconds_median' && finding.subject.type === 'step') {
+    const step = flow.steps.findIndex((s) => s.name === (finding.subject.step ?? finding.subject.name));
+    if (step > 0) return { kind: 'step_seconds', step, label: `${flow.steps[step - 1]!.name} -> ${flow.steps[step]!.name} median time` };
+  }
+  return measureOf(finding, flow);
 }
 
 /** The measure a finding is about, from its subject and metric; undefined when it has none (freshness, schema). */
@@ -147,6 +166,14 @@ export function measureOn(input: CheckInput, measure: Measure, day: Day, slice: 
       const rows = eventsOn(input, day).filter((r) => r.event === measure.event && matches(r, slice));
       return { num: sum(rows, (r) => r.people), den: 1 };
     }
+    case 'step_seconds': {
+      const rows = funnelOn(input, day).filter((r) => r.step === measure.step && matches(r, slice) && r.secondsMedian !== null && r.secondsMedian > 0 && r.timed > 0);
+      return {
+        num: sum(rows, (r) => r.timed * Math.log(r.secondsMedian!)),
+        den: sum(rows, (r) => r.timed),
+        spread: sum(rows, (r) => (r.secondsP90 !== null && r.secondsP90 > r.secondsMedian! ? r.timed * Math.log(r.secondsP90 / r.secondsMedian!) : 0)),
+      };
+    }
     case 'step_count': {
       if (slice.dimension !== '') return ZERO;
       const rows = stepsOn(input, day).filter(
@@ -194,12 +221,14 @@ export function baselineDays(input: CheckInput, days = 28): Day[] {
 export function baselineOf(input: CheckInput, measure: Measure, slice: Slice, days: readonly Day[]): Ratio {
   let num = 0;
   let den = 0;
+  let spread = 0;
   for (const day of days) {
     const ratio = measureOn(input, measure, day, slice);
     num += ratio.num;
     den += ratio.den;
+    spread += ratio.spread ?? 0;
   }
-  return { num, den };
+  return measure.kind === 'step_seconds' ? { num, den, spread } : { num, den };
 }
 
 /** First day a version has rows on a platform within the input's history. */

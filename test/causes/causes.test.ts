@@ -5,6 +5,8 @@
  */
 import { describe, expect, it } from 'vitest';
 import { analyseCauses, mergeDrafts, titleOf } from '../../checks/causes/index.js';
+import { weekday } from '../../checks/time.js';
+import { normal, prng } from '../stats/support.js';
 import { buildInput, DAY, FLOW, finding } from './fixtures.js';
 
 const riderConversion = (platform: string) =>
@@ -135,5 +137,68 @@ describe('analyseCauses', () => {
     expect(first!.fingerprint).toBe(second!.fingerprint);
     expect(first!.muted).toBe(false);
     expect(second!.muted).toBe(true);
+  });
+
+  // Issue 15: the cause tests' "3 standard errors" used a Poisson error against 28-day all-weekday averages.
+  describe('the gate of the platform and segment tests: weekday-matched forecasts, overdispersed error', () => {
+    const screenShown = (platform: string) => finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform });
+    /** Day-to-day noise of `sd` (relative) on every slice matching `noisy` before the judged day; the judged day as usual. */
+    const noise = (sd: number, noisy: (s: { platform: string; country: string }) => boolean, seed: number) => {
+      const rand = prng(seed);
+      const draws = new Map<string, number>();
+      return ({ platform, country, day }: { platform: string; country: string; day: string }) => {
+        if (day === DAY || !noisy({ platform, country })) return 1;
+        const key = `${platform}|${country}|${day}`;
+        if (!draws.has(key)) draws.set(key, Math.max(0.1, 1 + sd * normal(rand)));
+        return draws.get(key)!;
+      };
+    };
+
+    it('a platform 12% down whose people vary 10% from day to day has not moved: not a platform cause', () => {
+      // A Poisson error (sqrt of about 2,000 people) made -12% a 5-sigma move.
+      const level = noise(0.1, ({ platform }) => platform === 'web', 31);
+      const input = buildInput({ level, breakage: ({ platform }) => (platform === 'web' ? { volume: 0.88 } : {}) });
+      expect(onlyDraft(analyseCauses(input, [screenShown('web')])).cause.label).not.toBe('platform');
+      // The same drop on steady days is a platform cause.
+      const steady = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { volume: 0.88 } : {}) });
+      expect(onlyDraft(analyseCauses(steady, [screenShown('web')])).cause.label).toBe('platform');
+    });
+
+    it('a platform 30% down on its busiest weekday is measured against that weekday, not the week average', () => {
+      // Tuesdays (the judged day is one) carry 1.6 times the other days' people: -30% leaves web at 1.12, above the
+      // all-weekday average of 1.09, which hid the drop.
+      expect(weekday(DAY)).toBe(2);
+      const level = ({ day }: { day: string }) => (weekday(day) === 2 ? 1.6 : 1);
+      const input = buildInput({ level, breakage: ({ platform }) => (platform === 'web' ? { volume: 0.7 } : {}) });
+      const draft = onlyDraft(analyseCauses(input, [screenShown('web')]));
+      expect(draft.cause.label).toBe('platform');
+      expect(draft.cause.evidence.change as number).toBeCloseTo(-0.3, 2);
+    });
+
+    it('a country 35% down whose people vary 30% from day to day is no segment cause', () => {
+      // About 200 web people from CA a day: a Poisson error (14) made -70 a 5-sigma move.
+      const level = noise(0.3, ({ country }) => country === 'CA', 32);
+      const input = buildInput({ level, breakage: ({ platform, country }) => (platform === 'web' && country === 'CA' ? { volume: 0.65 } : {}) });
+      expect(onlyDraft(analyseCauses(input, [screenShown('web')])).cause.label).not.toBe('segment');
+      const steady = buildInput({ breakage: ({ platform, country }) => (platform === 'web' && country === 'CA' ? { volume: 0.65 } : {}) });
+      expect(onlyDraft(analyseCauses(steady, [screenShown('web')])).cause).toMatchObject({ label: 'segment', segment: { dimension: 'country', value: 'CA' } });
+    });
+  });
+
+  // Issue 15: a release that tripled a step's time was compared on people (the step-time finding's subject), not time.
+  it('blames a release for a step time it tripled, with the times in its sentence', () => {
+    const times = ({ platform, version, day }: { platform: string; version: string; day: string }) =>
+      platform === 'android' && version === '7.4.0' && day === DAY ? { median: 48, p90: 120 } : { median: 16, p90: 40 };
+    const input = buildInput({ times });
+    const slower = finding({ check: 'seasonal', metric: 'step_seconds_median', subject: { type: 'step', name: 'rider', step: 'rider' }, platform: 'android', direction: 'up' });
+    const draft = onlyDraft(analyseCauses(input, [slower]));
+    expect(draft.cause).toMatchObject({ label: 'release', version: '7.4.0' });
+    expect(draft.cause.evidence.measure).toBe('intro -> rider median time');
+    expect(draft.cause.evidence.versionRate as number).toBeCloseTo(48, 9);
+    expect(draft.cause.evidence.restRate as number).toBeCloseTo(16, 9);
+    expect(draft.cause.sentence).toContain('takes a median 48 s from intro to rider (640 people timed), against 16 s on other versions');
+    // The same step time on every version of the platform is no release.
+    const everywhere = buildInput({ times: ({ platform, day }) => (platform === 'android' && day === DAY ? { median: 48, p90: 120 } : { median: 16, p90: 40 }) });
+    expect(onlyDraft(analyseCauses(everywhere, [slower])).cause.label).not.toBe('release');
   });
 });

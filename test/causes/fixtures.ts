@@ -43,7 +43,12 @@ const COUNTRIES = [
 /** Per-slice rates on the judged day: return multipliers for [rider | intro, done | rider]. */
 export type Breakage = (slice: { platform: string; version: string; country: string; day: string }) => { rider?: number; done?: number; volume?: number };
 
-export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput['calendar']; history?: number } = {}): CheckInput {
+/** People per day of a platform as a multiple of the usual (a weekly pattern, day-to-day noise); 1 when not given. */
+export type Level = (slice: { platform: string; country: string; day: string }) => number;
+/** Median and 90th percentile of the intro -> rider time of a slice on a day, in seconds; no times when not given. */
+export type Times = (slice: { platform: string; version: string; day: string }) => { median: number; p90: number };
+
+export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput['calendar']; history?: number; level?: Level; times?: Times } = {}): CheckInput {
   const history = options.history ?? 35;
   const days = Array.from({ length: history }, (_, i) => addDays(DAY, i - history + 1));
   const funnel: FunnelDayRow[] = [];
@@ -52,12 +57,14 @@ export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput
   for (const day of days) {
     for (const platform of FLOW.platforms) {
       const totals = { intro: 0, rider: 0, done: 0 };
+      const timed: Array<{ median: number; p90: number; people: number }> = [];
       const byCountry = new Map<string, { intro: number; rider: number; done: number }>();
       for (const { version, share } of VERSIONS[platform]!) {
         const versionTotals = { intro: 0, rider: 0, done: 0 };
         for (const country of COUNTRIES) {
           const broken = day === DAY && options.breakage ? options.breakage({ platform, version, country: country.value, day }) : {};
-          const intro = Math.round(2000 * share * country.share * (broken.volume ?? 1));
+          const level = options.level?.({ platform, country: country.value, day }) ?? 1;
+          const intro = Math.round(2000 * share * country.share * level * (broken.volume ?? 1));
           const rider = Math.round(intro * 0.8 * (broken.rider ?? 1));
           const done = Math.round(rider * 0.7 * (broken.done ?? 1));
           versionTotals.intro += intro;
@@ -69,14 +76,19 @@ export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput
           c.done += done;
           byCountry.set(country.value, c);
         }
-        pushFunnel(funnel, day, platform, version, '', '', versionTotals);
+        const time = options.times?.({ platform, version, day });
+        pushFunnel(funnel, day, platform, version, '', '', versionTotals, time);
+        if (time) timed.push({ ...time, people: versionTotals.rider });
         pushSteps(steps, day, platform, version, versionTotals);
         pushEvents(events, day, platform, version, '', '', versionTotals);
         totals.intro += versionTotals.intro;
         totals.rider += versionTotals.rider;
         totals.done += versionTotals.done;
       }
-      pushFunnel(funnel, day, platform, '*', '', '', totals);
+      // The platform total's times: the timed-weighted geometric mean of the versions' (close enough to a pooled median here).
+      const geometric = (pick: (t: { median: number; p90: number }) => number) =>
+        Math.exp(timed.reduce((sum, t) => sum + t.people * Math.log(pick(t)), 0) / timed.reduce((sum, t) => sum + t.people, 0));
+      pushFunnel(funnel, day, platform, '*', '', '', totals, timed.length > 0 ? { median: geometric((t) => t.median), p90: geometric((t) => t.p90) } : undefined);
       pushSteps(steps, day, platform, '*', totals);
       pushEvents(events, day, platform, '*', '', '', totals);
       for (const [country, c] of byCountry) {
@@ -101,10 +113,33 @@ export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput
   };
 }
 
-function pushFunnel(rows: FunnelDayRow[], day: string, platform: string, version: string, dimension: string, value: string, t: { intro: number; rider: number; done: number }) {
-  [t.intro, t.rider, t.done].forEach((reached, step) =>
-    rows.push({ day, flow: FLOW.id, platform, version, dimension, value, step, entered: step === 0 ? reached : 0, reached, secondsMedian: null, secondsP90: null, timed: 0 }),
-  );
+function pushFunnel(
+  rows: FunnelDayRow[],
+  day: string,
+  platform: string,
+  version: string,
+  dimension: string,
+  value: string,
+  t: { intro: number; rider: number; done: number },
+  time?: { median: number; p90: number },
+) {
+  [t.intro, t.rider, t.done].forEach((reached, step) => {
+    const timedStep = step === 1 && time !== undefined;
+    rows.push({
+      day,
+      flow: FLOW.id,
+      platform,
+      version,
+      dimension,
+      value,
+      step,
+      entered: step === 0 ? reached : 0,
+      reached,
+      secondsMedian: timedStep ? time.median : null,
+      secondsP90: timedStep ? time.p90 : null,
+      timed: timedStep ? reached : 0,
+    });
+  });
 }
 
 function pushSteps(rows: StepDayRow[], day: string, platform: string, version: string, t: { intro: number; rider: number; done: number }) {
