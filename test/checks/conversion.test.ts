@@ -4,22 +4,9 @@ import { dayEnd } from '../../checks/time.js';
 import type { CheckModule, Day, FunnelDayRow, WithPlatforms } from '../../checks/types.js';
 import { judgeDay } from '../../service/pipeline/judge.js';
 import { DAY, TIMEZONE, daysEnding, describeInput, flowConfig, flowDefinition, funnelDay, makeInput, optionsOf, type FlowFile } from './fixtures-seasonal-conversion.js';
-import { readFixture } from '../stats/support.js';
+import { readDayProportionCases, type DayProportionCase as RCase } from '../stats/support.js';
 
-/** A case of test/fixtures/day-proportion/cases.json (R: metafor's DerSimonian-Laird fit, qt / qnorm). */
-interface RCase {
-  case: string;
-  successes: number[];
-  trials: number[];
-  day_successes: number;
-  day_trials: number;
-  tau2: number;
-  center: number;
-  variance: number;
-  score: number;
-  critical: number;
-}
-const rCases = (JSON.parse(readFixture('day-proportion', 'cases.json')) as { cases: RCase[] }).cases;
+const rCases = readDayProportionCases().cases;
 const rCase = (name: string) => rCases.find((c) => c.case === name)!;
 
 /** Funnel rows from an R case: intro = trials, zone = successes on the case's days (the judged day last), done at 75% of zone. */

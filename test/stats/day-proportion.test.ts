@@ -1,26 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import { chiSquareHomogeneity } from '../../checks/stats/chi-square-homogeneity.js';
 import { criticalValue, predictDayProportion } from '../../checks/stats/day-proportion.js';
-import { normal, prng, readFixture } from './support.js';
-
-interface RCase {
-  case: string;
-  successes: number[];
-  trials: number[];
-  day_successes: number;
-  day_trials: number;
-  tail: number;
-  q: number;
-  tau2: number;
-  center: number;
-  center_se: number;
-  variance: number;
-  score: number;
-  critical: number;
-}
+import { normal, prng, readDayProportionCases } from './support.js';
 
 // R's metafor::rma(yi, vi, method = "DL") and qt / qnorm: test/fixtures/day-proportion/runner.R (metafor 3.8-1, Debian).
-const reference = JSON.parse(readFixture('day-proportion', 'cases.json')) as { r_version: string; metafor_version: string; cases: RCase[] };
+const reference = readDayProportionCases();
 
 describe(`day proportion against R's metafor ${reference.metafor_version} (DerSimonian-Laird)`, () => {
   for (const c of reference.cases) {

@@ -26,3 +26,24 @@ export function prng(seed: number): () => number {
 export function normal(rand: () => number): number {
   return Math.sqrt(-2 * Math.log(1 - rand())) * Math.cos(2 * Math.PI * rand());
 }
+
+/** A case of test/fixtures/day-proportion/cases.json, written by its runner.R (R's metafor DerSimonian-Laird fit, qt / qnorm). */
+export interface DayProportionCase {
+  case: string;
+  successes: number[];
+  trials: number[];
+  day_successes: number;
+  day_trials: number;
+  tail: number;
+  q: number;
+  tau2: number;
+  center: number;
+  center_se: number;
+  variance: number;
+  score: number;
+  critical: number;
+}
+
+export function readDayProportionCases(): { r_version: string; metafor_version: string; cases: DayProportionCase[] } {
+  return JSON.parse(readFixture('day-proportion', 'cases.json')) as { r_version: string; metafor_version: string; cases: DayProportionCase[] };
+}
