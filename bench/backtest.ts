@@ -49,7 +49,7 @@ export async function benchBacktest(options: { url: string; rounds: number; log:
     };
   } finally {
     await rt.state.query(`drop schema if exists ${quoteIdent(`${schema}_state`)} cascade`);
-    await rt.warehouse.query(`drop schema if exists ${quoteIdent(schema)} cascade`);
+    await rt.state.query(`drop schema if exists ${quoteIdent(schema)} cascade`);
     await rt.close();
   }
 }

@@ -6,19 +6,23 @@ import { resolveReference, type LoadedConfig } from './config/load.js';
 import { startEmbeddedPostgres, type EmbeddedServer } from './db/embedded.js';
 import { migrate } from './db/migrate.js';
 import { createLogger, type Logger } from './log.js';
-import type { WarehouseMapping } from './warehouse/queries.js';
+import type { WarehouseMapping } from './warehouse/mapping.js';
+import type { WarehouseEngine } from './warehouse/engine.js';
+import { openClickHouseWarehouse, openPostgresWarehouse, type OpenWarehouse } from './warehouse/open.js';
 
 /** Everything a command needs to work: config, connections, logger. */
 export interface Runtime {
   config: LoadedConfig;
-  warehouse: pg.Pool;
+  /** The events table's engine; the rollup, probe and freshness code see it only as the `Warehouse` seam. */
+  warehouse: OpenWarehouse;
+  /** plumbline's own schema, always PostgreSQL. */
   state: pg.Pool;
   stateSchema: string;
   mapping: WarehouseMapping;
   timezone: string;
   flows: FlowDefinition[];
   log: Logger;
-  /** Set when plumbline runs its own embedded PostgreSQL (demo, or no warehouse configured). */
+  /** Set when plumbline runs its own embedded PostgreSQL (demo, or no warehouse or state database configured). */
   embedded?: EmbeddedServer;
   close(): Promise<void>;
 }
@@ -26,6 +30,8 @@ export interface Runtime {
 export interface RuntimeOptions {
   /** Use the embedded server even when a warehouse URL is configured (the demo). */
   forceEmbedded?: boolean;
+  /** The warehouse engine instead of the configured one (`plumbline demo --engine`). */
+  engine?: WarehouseEngine;
   /** Where the embedded server keeps its data; `.plumbline/embedded` by default. */
   embeddedDir?: string;
   log?: Logger;
@@ -38,21 +44,22 @@ export const DEFAULT_EMBEDDED_DIR = join('.plumbline', 'embedded');
 export async function openRuntime(config: LoadedConfig, options: RuntimeOptions = {}): Promise<Runtime> {
   const log = options.log ?? createLogger();
   const env = options.env ?? process.env;
-  let warehouseUrl = options.forceEmbedded ? undefined : resolveReference(config.main.warehouse.url, env);
+  const settings = { ...config.main.warehouse, engine: options.engine ?? config.main.warehouse.engine };
+  const warehouseUrl = options.forceEmbedded ? undefined : resolveReference(settings.url, env);
   let stateUrl = options.forceEmbedded ? undefined : resolveReference(config.main.state.url, env);
+  // The state is PostgreSQL: the warehouse's own server when that is PostgreSQL, else state.url, else an embedded one.
+  if (stateUrl === undefined && settings.engine === 'postgres') stateUrl = warehouseUrl;
   let embedded: EmbeddedServer | undefined;
-  if (warehouseUrl === undefined) {
+  if (stateUrl === undefined) {
     const dataDir = options.embeddedDir ?? DEFAULT_EMBEDDED_DIR;
-    log.info({ dataDir }, 'no warehouse configured: starting the embedded PostgreSQL');
+    log.info({ dataDir }, 'no database configured: starting the embedded PostgreSQL');
     embedded = await startEmbeddedPostgres({ dataDir, onLog: (line) => log.debug({ embedded: line }, 'embedded postgres') });
-    warehouseUrl = embedded.url;
-    stateUrl = stateUrl ?? embedded.url;
+    stateUrl = embedded.url;
   }
   const max = options.poolSize ?? 6;
-  const warehouse = new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });
-  const state = stateUrl === undefined || stateUrl === warehouseUrl ? warehouse : new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
+  const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
   let closing = false;
-  for (const pool of new Set([warehouse, state])) {
+  const watch = (pool: pg.Pool) => {
     pool.on('error', (error) => {
       if (!closing) log.error({ err: error }, 'idle database connection failed');
     });
@@ -62,6 +69,16 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
         if (!closing) log.warn({ err: error }, 'database connection lost');
       }),
     );
+  };
+  watch(state);
+  const mapping = toWarehouseMapping(config.main);
+  let warehouse: OpenWarehouse;
+  if (settings.engine === 'clickhouse') {
+    warehouse = await openClickHouseWarehouse(warehouseUrl, mapping, settings);
+  } else {
+    const pool = (warehouseUrl ?? stateUrl) === stateUrl ? state : new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });
+    if (pool !== state) watch(pool);
+    warehouse = openPostgresWarehouse(pool, mapping, settings);
   }
   const stateSchema = config.main.state.schema;
   const applied = await migrate(state, stateSchema);
@@ -71,15 +88,16 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     warehouse,
     state,
     stateSchema,
-    mapping: toWarehouseMapping(config.main),
+    mapping,
     timezone: config.main.timezone,
     flows: config.flows.map((flow) => toFlowDefinition(flow.config)),
     log,
     ...(embedded ? { embedded } : {}),
     async close() {
       closing = true;
-      await warehouse.end();
-      if (state !== warehouse) await state.end();
+      // A PostgreSQL warehouse may share the state's pool; it is ended once.
+      if (warehouse.engine === 'clickhouse' || warehouse.pool !== state) await warehouse.close();
+      await state.end();
       await embedded?.stop();
     },
   };

@@ -1,10 +1,11 @@
-import { Command, CommanderError, InvalidArgumentError } from 'commander';
+import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { backtestCommand } from './commands/backtest.js';
 import { demoCommand } from './commands/demo.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
 import { EXIT, ExitError } from './exit-codes.js';
 import { PICTURE_DAYS } from './summary.js';
+import { WAREHOUSE_ENGINES, type WarehouseEngine } from '../warehouse/engine.js';
 import { withRuntime } from './with-runtime.js';
 
 const program = new Command()
@@ -54,8 +55,9 @@ program
   .option('--days <n>', 'days shown in the day-by-day picture', integer, PICTURE_DAYS)
   .option('--findings', 'list every finding instead of one line per incident, check and platform')
   .option('--json', 'machine-readable output')
-  .action(async (options: { json?: boolean; days: number; findings?: boolean }) => {
-    process.exitCode = await withRuntime(configDir(), (rt) => demoCommand(rt, options), { forceEmbedded: true });
+  .addOption(new Option('--engine <engine>', 'warehouse engine: postgres (embedded), or clickhouse (in-process chdb)').choices(WAREHOUSE_ENGINES).default('postgres'))
+  .action(async (options: { json?: boolean; days: number; findings?: boolean; engine: WarehouseEngine }) => {
+    process.exitCode = await withRuntime(configDir(), (rt) => demoCommand(rt, options), { forceEmbedded: true, engine: options.engine });
   });
 
 program

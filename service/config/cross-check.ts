@@ -31,6 +31,7 @@ export function crossCheck(main: Main | undefined, flows: readonly Flow[], conte
   const emit: Emit = (source, path, problem, at = 'value') =>
     problems.push({ file: source.name, ...source.position(path, at), key: pathToKey(path), ...problem });
   if (main) {
+    checkEngine(main, emit);
     checkPlatformMapping(main, emit);
     checkCalendar(main.source, main.config.calendar ?? [], undefined, emit);
   }
@@ -44,6 +45,26 @@ export function crossCheck(main: Main | undefined, flows: readonly Flow[], conte
   }
   if (main) checkDeliveryRoutes(main, flows, emit);
   return problems;
+}
+
+/** plumbline's own state lives in PostgreSQL: a ClickHouse server cannot hold it, and TLS files belong to ClickHouse URLs. */
+function checkEngine({ source, config }: Main, emit: Emit): void {
+  const warehouse = config.warehouse;
+  if (!warehouse) return;
+  if (warehouse.engine === 'clickhouse' && warehouse.url !== undefined && config.state?.url === undefined) {
+    emit(source, ['warehouse', 'url'], {
+      expected: 'state.url as well: the state stays in PostgreSQL when the warehouse is ClickHouse',
+      found: 'no state.url',
+      severity: 'error',
+    });
+  }
+  if (warehouse.engine !== 'clickhouse' && warehouse.tls_ca_file !== undefined) {
+    emit(source, ['warehouse', 'tls_ca_file'], {
+      expected: 'engine: clickhouse (a PostgreSQL URL names its certificates itself, e.g. sslrootcert=)',
+      found: `engine: ${warehouse.engine ?? 'postgres'}`,
+      severity: 'error',
+    });
+  }
 }
 
 /** A raw platform value mapped to two of our platforms would count its events twice. */

@@ -1,5 +1,5 @@
 import type { CalendarDay, FlowDefinition, ParamContract } from '../../checks/types.js';
-import type { WarehouseMapping } from '../warehouse/queries.js';
+import type { WarehouseMapping } from '../warehouse/mapping.js';
 import type { CalendarEntry, FlowConfig, MainConfig } from './schema.js';
 
 /** The flow as the checks and the rollup see it. */

@@ -6,7 +6,7 @@
  */
 import pg from 'pg';
 import { quoteIdent, type Query } from '../db/sql.js';
-import { TOP_VALUES, VALUE_MAX_LENGTH } from '../warehouse/queries.js';
+import { TOP_VALUES, VALUE_MAX_LENGTH } from '../warehouse/mapping.js';
 import { flowEvents, type Checked } from './cross-check.js';
 import { addDays } from './definitions.js';
 import { closest, pathToKey, type ConfigProblem } from './problems.js';

@@ -6,6 +6,7 @@
  */
 import { z } from 'zod';
 import type { CheckModule } from '../../checks/types.js';
+import { WAREHOUSE_ENGINES } from '../warehouse/engine.js';
 import { cron, duration, isoDate, timeZone } from './units.js';
 
 /** Lower-case words joined by `_` or `-`: ids that end up in URLs, metrics and messages. */
@@ -34,7 +35,9 @@ const columns = z.strictObject({
   device: identifier().default('device_id').describe('Device or browser id, counted when the user id is null.'),
   platform: identifier().default('platform').describe('Raw platform value, mapped by warehouse.platforms.'),
   version: identifier().default('app_version').describe('App version; null on web is fine.'),
-  params: identifier().default('props').describe('Event parameters as a JSON object column.'),
+  params: identifier()
+    .default('props')
+    .describe('Event parameters as a JSON object column (PostgreSQL json or jsonb; ClickHouse String holding JSON, or the JSON type).'),
 });
 
 const calendarEntry = z
@@ -85,9 +88,15 @@ export const mainSchema = z
     timezone: timeZone().describe('IANA name of the business timezone; days run from local midnight to local midnight.'),
     warehouse: z
       .strictObject({
+        engine: z
+          .enum(WAREHOUSE_ENGINES)
+          .default('postgres')
+          .describe('The engine holding the events table: postgres, or clickhouse (a server or cluster, or chdb in-process).'),
         url: secretReference('connection strings carry secrets')
           .optional()
-          .describe('${ENV} reference to the PostgreSQL holding the events table; absent means the embedded demo database.'),
+          .describe(
+            '${ENV} reference to the warehouse: a PostgreSQL connection string, or a ClickHouse http(s) URL with user, password and database; absent means the embedded engine.',
+          ),
         events_table: z
           .string({ error: 'expected the events table, as table or schema.table' })
           .regex(/^[^.]+(\.[^.]+)?$/, { message: 'expected the events table, as table or schema.table' })
@@ -106,6 +115,17 @@ export const mainSchema = z
           .regex(/^\d+(kB|MB|GB)$/, { message: 'expected a size such as 256MB' })
           .default('256MB')
           .describe('Memory for the rollup grouping, per statement (PostgreSQL work_mem syntax).'),
+        statement_timeout: duration().default(1800).describe('Longest one warehouse statement may run before the engine stops it.'),
+        tls_ca_file: z
+          .string()
+          .min(1)
+          .optional()
+          .describe('ClickHouse over https: PEM file of the certificate authority that signed the server certificate, when it is not a public one.'),
+        embedded_dir: z
+          .string()
+          .min(1)
+          .default('.plumbline/clickhouse')
+          .describe('ClickHouse without url: the data directory of the in-process engine (chdb) holding the events table.'),
       })
       .describe('Where the events are and how their columns map to plumbline roles.'),
     state: z

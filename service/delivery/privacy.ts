@@ -9,7 +9,7 @@
 import type { Day, Finding } from '../../checks/types.js';
 import { quoteIdent } from '../db/sql.js';
 import type { Db } from '../incidents/store.js';
-import { LOW_CARDINALITY } from '../warehouse/queries.js';
+import { LOW_CARDINALITY } from '../warehouse/mapping.js';
 import { cleanText } from './text.js';
 
 /** Longest parameter value shown. */

@@ -1,14 +1,17 @@
 /**
  * `plumbline demo`: the Metro Pass scenario generated into the embedded
  * database, rolled up and judged day by day, as the daily run would have.
+ * With the ClickHouse engine the scenario is generated in the embedded
+ * PostgreSQL and copied into the in-process ClickHouse (clickhouse.ts).
  */
 import { join } from 'node:path';
 import { addDays } from '../config/definitions.js';
-import { quoteIdent } from '../db/sql.js';
+import { quoteIdent, quoteQualified } from '../db/sql.js';
 import { migrate } from '../db/migrate.js';
 import type { Runtime } from '../runtime.js';
 import { runRange } from '../cli/commands/run.js';
 import { Progress } from '../cli/progress.js';
+import { copyEventsFromPostgres } from './clickhouse.js';
 import { DEMO_FROM, DEMO_TO, generateScenario, writeGroundTruth } from './scenario.js';
 
 /** Days of history generated before the first judged day, so baselines have something to learn from. */
@@ -31,9 +34,17 @@ export async function prepareDemo(rt: Runtime, options: { quiet?: boolean; dir?:
   await rt.state.query(`drop schema if exists ${quoteIdent(rt.stateSchema)} cascade`);
   await migrate(rt.state, rt.stateSchema);
   const generating = new Progress('generate', !options.quiet);
-  const generated = await generateScenario(rt.warehouse, { schema: schema!, table: table!, from: DEMO_FROM, to: DEMO_TO, replace: true }, (done, total, label) =>
+  // PostgreSQL generates the scenario: the warehouse itself, or the state database on its way to ClickHouse.
+  const target = rt.warehouse.engine === 'postgres' ? rt.warehouse.pool : rt.state;
+  const generated = await generateScenario(target, { schema: schema!, table: table!, from: DEMO_FROM, to: DEMO_TO, replace: true }, (done, total, label) =>
     generating.update(done, total, label),
   );
+  if (rt.warehouse.engine === 'clickhouse') {
+    if (!rt.embedded) throw new Error('the ClickHouse demo copies its events from the embedded PostgreSQL');
+    const copied = await copyEventsFromPostgres(rt.warehouse.connection, { url: rt.embedded.url, table: rt.mapping.table }, rt.mapping.table);
+    if (copied !== generated.events) throw new Error(`copied ${copied} of ${generated.events} demo events into ClickHouse`);
+    await rt.state.query(`drop table ${quoteQualified(rt.mapping.table)}`);
+  }
   const judgedFrom = addDays(DEMO_FROM, DEMO_WARM_UP_DAYS);
   await runRange(rt, DEMO_FROM, DEMO_TO, { json: options.quiet ?? false, judgeFrom: judgedFrom });
   const groundTruthPath = await writeGroundTruth(options.dir ?? DEMO_DIR);

@@ -5,11 +5,11 @@ import type pg from 'pg';
 import { addDays } from '../config/definitions.js';
 import type { FlowConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
-import { rollupDay, type RollupResult } from '../rollup/rollup-day.js';
+import { rollupDay, type RollupContext, type RollupResult } from '../rollup/rollup-day.js';
+import type { DayRange } from '../warehouse/engine.js';
 import type { Runtime } from '../runtime.js';
 import { applyIncidentDrafts, incidentPolicy } from '../incidents/apply.js';
 import { storeJudgement } from '../state/findings.js';
-import { dayBounds, restatementProbeQuery } from '../warehouse/queries.js';
 import { loadAnomalousDays, loadHistory, sliceInput } from './history.js';
 import { judgeDay, type Judgement } from './judge.js';
 
@@ -25,16 +25,8 @@ export interface RunOptions {
   onProgress?: (done: number, total: number, label: string) => void;
 }
 
-export function rollupContext(rt: Runtime) {
-  return {
-    warehouse: rt.warehouse,
-    state: rt.state,
-    stateSchema: rt.stateSchema,
-    mapping: rt.mapping,
-    timezone: rt.timezone,
-    flows: rt.flows,
-    workMem: rt.config.main.warehouse.work_mem,
-  };
+export function rollupContext(rt: Runtime): RollupContext {
+  return { warehouse: rt.warehouse, state: rt.state, stateSchema: rt.stateSchema, timezone: rt.timezone, flows: rt.flows };
 }
 
 /** Rolls up a range of days, two at a time (one per core of a small machine). */
@@ -59,20 +51,19 @@ export async function rollupRange(rt: Runtime, days: string[], options: Pick<Run
 export async function probeRestatements(rt: Runtime, day: string): Promise<string[]> {
   const lookback = rt.config.main.judging.restatement_days;
   if (lookback === 0) return [];
-  const days: Array<{ day: string; lo: Date; hi: Date }> = [];
+  const days: Array<{ day: string } & DayRange> = [];
   for (let i = lookback; i >= 1; i--) {
     const past = addDays(day, -i);
-    const { rows } = await rt.warehouse.query<{ lo: Date; hi: Date }>(dayBounds(past, rt.timezone));
-    days.push({ day: past, ...rows[0]! });
+    days.push({ day: past, ...(await rt.warehouse.dayBounds(past, rt.timezone)) });
   }
-  const { rows: counts } = await rt.warehouse.query<{ day: string; platform: string; events: string }>(restatementProbeQuery(rt.mapping, days));
+  const counts = await rt.warehouse.probeCounts(days);
   const { rows: known } = await rt.state.query<{ day: string; platform: string; events: string }>({
     text: `select to_char(day, 'YYYY-MM-DD') as day, platform, events from ${quoteIdent(rt.stateSchema)}.day_status where day >= $1 and day < $2`,
     values: [days[0]!.day, day],
   });
   const key = (row: { day: string; platform: string }) => `${row.day}|${row.platform}`;
   const before = new Map(known.map((row) => [key(row), Number(row.events)]));
-  const now = new Map(counts.map((row) => [key(row), Number(row.events)]));
+  const now = new Map(counts.map((row) => [key(row), row.events]));
   const changed = new Set<string>();
   for (const k of new Set([...before.keys(), ...now.keys()])) {
     const [pastDay] = k.split('|');

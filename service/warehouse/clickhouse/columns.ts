@@ -1,0 +1,84 @@
+/**
+ * Column expressions shared by every ClickHouse statement: the mapping from
+ * the team's table to our roles, with the meaning the PostgreSQL dialect
+ * gives them. Strings compare as bytes in ClickHouse, so grouping, `min` and
+ * sorting agree with PostgreSQL's "C" collation without saying so. String
+ * columns (also LowCardinality and Nullable ones) are used as they are, so
+ * ClickHouse can work on a LowCardinality column's dictionary; other types
+ * are turned into text first, as PostgreSQL's `::text` does.
+ */
+import { quoteIdent, quoteQualified } from '../../db/sql.js';
+import { UNMAPPED_PLATFORM, type WarehouseMapping } from '../mapping.js';
+import type { ChParams } from './sql.js';
+
+/** The team's events table: its mapping, and its column types by name as `describe table` gives them. */
+export interface EventsTable {
+  mapping: WarehouseMapping;
+  types: ReadonlyMap<string, string>;
+}
+
+export class Columns {
+  readonly mapping: WarehouseMapping;
+  readonly types: ReadonlyMap<string, string>;
+  constructor(
+    table: EventsTable,
+    readonly params: ChParams,
+  ) {
+    this.mapping = table.mapping;
+    this.types = table.types;
+  }
+  /** A column as text: as it is when it holds strings, through `toString` otherwise. */
+  text(column: string): string {
+    const expression = `e.${quoteIdent(column)}`;
+    return /^(LowCardinality\()?(Nullable\()?String\)*$/.test(this.types.get(column) ?? '') ? expression : `toString(${expression})`;
+  }
+  role(role: keyof WarehouseMapping['columns']): string {
+    return this.text(this.mapping.columns[role]);
+  }
+  get time(): string {
+    return `e.${quoteIdent(this.mapping.columns.time)}`;
+  }
+  /** The time as microseconds since the epoch, whatever the column's DateTime precision. */
+  get micros(): string {
+    return `toUnixTimestamp64Micro(toDateTime64(${this.time}, 6, 'UTC'))`;
+  }
+  get name(): string {
+    return this.role('name');
+  }
+  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. */
+  get person(): string {
+    return `coalesce(concat('u:', ${this.role('user')}), concat('d:', ${this.role('device')}))`;
+  }
+  get version(): string {
+    return `coalesce(${this.role('version')}, '')`;
+  }
+  /** The parameter object as JSON text: the JSON type is written out, so both storages are read by the same functions. */
+  get props(): string {
+    const column = `e.${quoteIdent(this.mapping.columns.params)}`;
+    return /^(Nullable\()?JSON\b/.test(this.types.get(this.mapping.columns.params) ?? '') ? `toJSONString(${column})` : column;
+  }
+  get rawPlatform(): string {
+    return this.role('platform');
+  }
+  get platform(): string {
+    return this.platformOf(this.rawPlatform);
+  }
+  /** Our platform name for a raw platform value (unmapped and null ones are 'other'); the first mapping of a raw value wins. */
+  platformOf(raw: string): string {
+    const pairs = new Map<string, string>();
+    for (const [ours, values] of Object.entries(this.mapping.platforms)) for (const value of values) if (!pairs.has(value)) pairs.set(value, ours);
+    const from = this.params.add([...pairs.keys()], 'Array(String)');
+    const to = this.params.add([...pairs.values()], 'Array(String)');
+    return `transform(${raw}, ${from}, ${to}, ${this.params.add(UNMAPPED_PLATFORM, 'String')})`;
+  }
+  dimension(name: string): string {
+    return `coalesce(${this.text(name)}, '')`;
+  }
+  get table(): string {
+    return `${quoteQualified(this.mapping.table)} as e`;
+  }
+  /** Rows of [lo, hi), through the time column itself so the table's ordering key prunes the read. */
+  inRange(lo: string, hi: string): string {
+    return `${this.time} >= ${lo} and ${this.time} < ${hi}`;
+  }
+}

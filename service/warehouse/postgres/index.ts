@@ -1,0 +1,80 @@
+/**
+ * The PostgreSQL engine of the warehouse seam: today's statements, run read
+ * only through `pg` with the rollup's session settings.
+ */
+import type pg from 'pg';
+import type { FlowDefinition } from '../../../checks/types.js';
+import type { Query } from '../../db/sql.js';
+import type { DayRange, Warehouse } from '../engine.js';
+import type { WarehouseMapping } from '../mapping.js';
+import { toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
+import { flowQuery } from './flow.js';
+import { dayBoundsQuery, eventCountsQuery, hourCountsQuery, paramProfileQuery, probeCountsQuery } from './statements.js';
+
+export interface PostgresSettings {
+  /** PostgreSQL work_mem for the rollup statements, e.g. '256MB'. */
+  workMem: string;
+  /** Longest a statement may run, in seconds. */
+  statementTimeoutSeconds: number;
+}
+
+export class PostgresWarehouse implements Warehouse {
+  readonly engine = 'postgres' as const;
+
+  constructor(
+    /** The warehouse's pool; the runtime may share it with the state, and then ends it once. */
+    readonly pool: pg.Pool,
+    readonly mapping: WarehouseMapping,
+    readonly settings: PostgresSettings,
+  ) {}
+
+  async dayBounds(day: string, timezone: string): Promise<DayRange> {
+    const { rows } = await this.pool.query<DayRange>(dayBoundsQuery(day, timezone));
+    return rows[0]!;
+  }
+
+  async eventCounts(range: DayRange) {
+    return (await this.read<RawCountRow>(eventCountsQuery(this.mapping, range))).map(toEventCountRow);
+  }
+
+  async hourCounts(range: DayRange) {
+    return (await this.read<RawHourRow>(hourCountsQuery(this.mapping, range))).map(toHourCountRow);
+  }
+
+  async paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]) {
+    return (await this.read<RawParamRow>(paramProfileQuery(this.mapping, range, events, untrackedKeys))).map(toParamProfileRow);
+  }
+
+  async flow(flow: FlowDefinition, range: DayRange) {
+    return toFlowRows(await this.read<RawFlowRow>(flowQuery(this.mapping, flow, range)));
+  }
+
+  async probeCounts(days: Array<{ day: string } & DayRange>) {
+    return (await this.read<RawProbeRow>(probeCountsQuery(this.mapping, days))).map(toProbeCountRow);
+  }
+
+  /** Runs one statement read only, with the rollup's session settings, on a connection of its own. */
+  async read<Row extends pg.QueryResultRow>(query: Query): Promise<Row[]> {
+    const client = await this.pool.connect();
+    try {
+      await client.query('begin read only');
+      // JIT compilation of these wide expressions costs seconds and saves nothing on one pass over a day.
+      await client.query({
+        text: `select set_config('work_mem', $1, true), set_config('jit', 'off', true), set_config('statement_timeout', $2, true)`,
+        values: [this.settings.workMem, `${this.settings.statementTimeoutSeconds}s`],
+      });
+      const { rows } = await client.query<Row>(query);
+      await client.query('commit');
+      return rows;
+    } catch (error) {
+      await client.query('rollback').catch(() => undefined);
+      throw error;
+    } finally {
+      client.release();
+    }
+  }
+
+  async close(): Promise<void> {
+    await this.pool.end();
+  }
+}

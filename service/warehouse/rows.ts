@@ -1,0 +1,122 @@
+/**
+ * The rows each dialect's statements return, as their drivers hand them over
+ * (PostgreSQL's bigint and numeric arrive as text, ClickHouse's 64-bit
+ * integers as numbers), turned into the seam's rows. Both dialects name
+ * their columns alike, so one conversion serves both.
+ */
+import type { EventCountRow, FlowRows, FunnelRow, HourCountRow, ParamProfileRow, ProbeCountRow, StepCountRow } from './engine.js';
+
+type Count = string | number;
+
+export interface RawCountRow {
+  event: string;
+  platform: string;
+  version: string;
+  dimension: string;
+  value: string;
+  events: Count;
+  people: Count;
+}
+
+export interface RawHourRow {
+  platform: string;
+  hour: number;
+  events: Count;
+  /** A Date from PostgreSQL; milliseconds since the epoch from ClickHouse. */
+  newest_at: Date | number;
+}
+
+export interface RawParamRow {
+  event: string;
+  platform: string;
+  version: string;
+  key: string;
+  json_type: string;
+  events: Count;
+  distinct_values: Count | null;
+  top_values: Array<{ value: string; events: Count }>;
+  min_number: number | null;
+  max_number: number | null;
+  fractional: Count;
+}
+
+interface RawStepRow {
+  kind: 'step';
+  platform: string;
+  version: string;
+  step: number;
+  events: Count;
+  people: Count;
+}
+
+interface RawFunnelRow {
+  kind: 'funnel';
+  platform: string;
+  version: string;
+  dimension: string;
+  value: string;
+  entered: Count[];
+  reached: Count[];
+  seconds_median: Array<number | null>;
+  seconds_p90: Array<number | null>;
+  timed: Count[];
+}
+
+export type RawFlowRow = RawFunnelRow | RawStepRow;
+
+export interface RawProbeRow {
+  day: string;
+  platform: string;
+  events: Count;
+}
+
+export function toEventCountRow(row: RawCountRow): EventCountRow {
+  return { event: row.event, platform: row.platform, version: row.version, dimension: row.dimension, value: row.value, events: Number(row.events), people: Number(row.people) };
+}
+
+export function toHourCountRow(row: RawHourRow): HourCountRow {
+  return { platform: row.platform, hour: Number(row.hour), events: Number(row.events), newestAt: new Date(row.newest_at) };
+}
+
+export function toParamProfileRow(row: RawParamRow): ParamProfileRow {
+  return {
+    event: row.event,
+    platform: row.platform,
+    version: row.version,
+    key: row.key,
+    jsonType: row.json_type,
+    events: Number(row.events),
+    distinctValues: row.distinct_values === null ? null : Number(row.distinct_values),
+    topValues: row.top_values.map((top) => ({ value: top.value, events: Number(top.events) })),
+    minNumber: row.min_number,
+    maxNumber: row.max_number,
+    fractional: Number(row.fractional),
+  };
+}
+
+export function toFlowRows(rows: RawFlowRow[]): FlowRows {
+  const funnel: FunnelRow[] = [];
+  const steps: StepCountRow[] = [];
+  for (const row of rows) {
+    if (row.kind === 'step') {
+      steps.push({ platform: row.platform, version: row.version, step: Number(row.step), events: Number(row.events), people: Number(row.people) });
+    } else {
+      funnel.push({
+        platform: row.platform,
+        version: row.version,
+        dimension: row.dimension,
+        value: row.value,
+        entered: row.entered.map(Number),
+        reached: row.reached.map(Number),
+        secondsMedian: row.seconds_median,
+        secondsP90: row.seconds_p90,
+        timed: row.timed.map(Number),
+      });
+    }
+  }
+  return { funnel, steps };
+}
+
+export function toProbeCountRow(row: RawProbeRow): ProbeCountRow {
+  return { day: row.day, platform: row.platform, events: Number(row.events) };
+}
