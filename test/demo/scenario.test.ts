@@ -19,7 +19,7 @@ import {
   type ScenarioOptions,
 } from '../../service/demo/scenario.js';
 import { projectPath } from '../../service/paths.js';
-import { dayBounds, funnelQuery } from '../../service/warehouse/queries.js';
+import { PostgresWarehouse } from '../../service/warehouse/postgres/index.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
 
 /** Three weeks around the October month start, the Canadian declines and the Android 7.4.0 release. */
@@ -118,16 +118,14 @@ describe('the demo scenario matches the demo config', () => {
   });
 
   it('reaches every step of every flow on every platform, in order, through the rollup funnel query', async () => {
-    const mapping = { ...toWarehouseMapping(config.main), table: `${db.schema}.events_clean` };
-    const [bounds] = await rows<{ lo: Date; hi: Date }>(dayBounds('2026-10-07', DEMO_TIMEZONE).text, dayBounds('2026-10-07', DEMO_TIMEZONE).values);
+    const warehouse = new PostgresWarehouse(db.pool, { ...toWarehouseMapping(config.main), table: `${db.schema}.events_clean` }, { workMem: '64MB', statementTimeoutSeconds: 600 });
+    const range = await warehouse.dayBounds('2026-10-07', DEMO_TIMEZONE);
     for (const { config: flowConfig } of config.flows) {
       const flow = toFlowDefinition(flowConfig);
-      const funnel = await db.pool.query<{ platform: string; version: string; dimension: string; reached: string[] }>(
-        funnelQuery(mapping, flow, bounds!.lo, bounds!.hi),
-      );
+      const { funnel } = await warehouse.flow(flow, range);
       for (const platform of flow.platforms) {
-        const row = funnel.rows.find((r) => r.platform === platform && r.version === '*' && r.dimension === '');
-        const reached = row!.reached.map(Number);
+        const row = funnel.find((r) => r.platform === platform && r.version === '*' && r.dimension === '');
+        const reached = row!.reached;
         expect(reached[0], `${flow.id} ${platform} entrants`).toBeGreaterThan(20);
         for (let step = 1; step < reached.length; step++) {
           const rate = reached[step]! / reached[step - 1]!;

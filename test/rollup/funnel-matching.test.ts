@@ -1,18 +1,17 @@
 /**
- * Property test: the SQL funnel matching equals a brute-force TypeScript
- * reference (test/helpers/reference.ts) on random event sequences with
- * out-of-order rows, repeats, steps past the window, user/device fallback,
- * unmapped platforms and several platforms.
+ * Property test: the funnel matching, event counts and step counts of each
+ * warehouse engine (PostgreSQL, and ClickHouse in-process through chdb)
+ * equal brute-force TypeScript references (test/helpers/reference.ts) on
+ * random event sequences with out-of-order rows, repeats, steps past the
+ * window, user/device fallback, unmapped platforms and several platforms.
  */
 import fc from 'fast-check';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
-import { quoteIdent } from '../../service/db/sql.js';
-import { dayBounds, eventCountsQuery, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
-import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { expectFunnelRows, expectStepRows } from '../helpers/compare.js';
-import { byteOrder, referenceCounts, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
-import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+import type { DayRange } from '../../service/warehouse/engine.js';
+import { expectCountRows, expectFunnelRows, expectStepRows } from '../helpers/compare.js';
+import { referenceCounts, referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
+import { openTestWarehouse, propertyTimeout, TEST_ENGINES, type RawEvent, type TestWarehouse } from '../helpers/warehouse.js';
 
 const DAY = '2026-03-10';
 const TZ = 'America/New_York';
@@ -88,68 +87,56 @@ function toRows(journeys: Journey[], lo: Date): RawEvent[] {
   return rows.reverse();
 }
 
-describe('funnel matching (SQL vs brute-force reference)', () => {
-  let db: TestSchema;
-  let lo: Date;
-  let hi: Date;
-  const mapping = () => testMapping(db.schema);
+describe.each(TEST_ENGINES)('funnel matching on %s (vs brute-force reference)', (engine) => {
+  let db: TestWarehouse;
+  let range: DayRange;
 
   beforeAll(async () => {
-    db = await createTestSchema('funnel');
-    await createEventsTable(db.pool, db.schema);
-    const { rows } = await db.pool.query<{ lo: Date; hi: Date }>(dayBounds(DAY, TZ));
-    ({ lo, hi } = rows[0]!);
+    db = await openTestWarehouse(engine, 'funnel');
+    range = await db.warehouse.dayBounds(DAY, TZ);
   });
   afterAll(async () => db.drop());
+
+  const load = async (journeys: Journey[]) => {
+    const rows = toRows(journeys, range.lo);
+    await db.clear();
+    await db.insert(rows);
+    return rows;
+  };
 
   for (const entry of ['first_step_only', 'any_step'] as const) {
     it(`agrees with the reference (entry: ${entry})`, async () => {
       const definition = flow(entry);
       await fc.assert(
         fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
-          const rows = toRows(journeys, lo);
-          await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
-          await insertEvents(db.pool, db.schema, rows);
-          const { rows: sql } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
-          expectFunnelRows(sql, referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi), { timing: true });
+          const rows = await load(journeys);
+          const { funnel } = await db.warehouse.flow(definition, range);
+          expectFunnelRows(funnel, referenceFunnel(rows, definition, db.mapping.platforms, db.mapping.dimensions, range.lo, range.hi), { timing: true });
         }),
         { numRuns: 60, seed: 20261201 },
       );
-    });
+    }, propertyTimeout(engine));
   }
 
   it('event counts and distinct people agree with the reference', async () => {
     await fc.assert(
       fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
-        const rows = toRows(journeys, lo);
-        await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
-        await insertEvents(db.pool, db.schema, rows);
-        const { rows: sql } = await db.pool.query(eventCountsQuery(mapping(), lo, hi));
-        const actual = sql
-          .map((row) => ({ ...row, events: Number(row.events), people: Number(row.people) }))
-          .map(({ event, platform, version, dimension, value, events, people }) => ({ event, platform, version, dimension, value, events, people }));
-        const expected = referenceCounts(rows, mapping().platforms, mapping().dimensions, lo, hi);
-        const key = (row: { event: string; platform: string; version: string; dimension: string; value: string }) =>
-          [row.event, row.platform, row.version, row.dimension, row.value].join('|');
-        actual.sort((a, b) => byteOrder(key(a), key(b)));
-        expected.sort((a, b) => byteOrder(key(a), key(b)));
-        expect(actual).toEqual(expected);
+        const rows = await load(journeys);
+        expectCountRows(await db.warehouse.eventCounts(range), referenceCounts(rows, db.mapping.platforms, db.mapping.dimensions, range.lo, range.hi));
       }),
       { numRuns: 60, seed: 20261202 },
     );
-  });
+  }, propertyTimeout(engine));
 
   it('step counts (any order) agree with the reference', async () => {
     const definition = flow('first_step_only');
     await fc.assert(
       fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 12 }), async (journeys) => {
-        const rows = toRows(journeys, lo);
-        await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
-        await insertEvents(db.pool, db.schema, rows);
-        const { rows: sql } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
-        expectStepRows(sql, referenceStepCounts(rows, definition, mapping().platforms, lo, hi));
+        const rows = await load(journeys);
+        const { steps } = await db.warehouse.flow(definition, range);
+        expectStepRows(steps, referenceStepCounts(rows, definition, db.mapping.platforms, range.lo, range.hi));
       }),
       { numRuns: 40, seed: 20261203 },
     );
-  });
+  }, propertyTimeout(engine));
 });

@@ -1,19 +1,17 @@
 /**
  * Property test for flows whose steps can match the same event (a step on
- * any `screen_shown`, a later one on one screen): the flow statement then
- * repeats each row once per matching step instead of using one CASE. Funnel
- * and step counts are compared with the brute-force references in
- * test/helpers/reference.ts, as in funnel-matching.test.ts.
+ * any `screen_shown`, a later one on one screen): the flow statements then
+ * repeat each row once per matching step instead of picking one step. Funnel
+ * and step counts of each engine are compared with the brute-force
+ * references in test/helpers/reference.ts, as in funnel-matching.test.ts.
  */
 import fc from 'fast-check';
 import { afterAll, beforeAll, describe, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
-import { quoteIdent } from '../../service/db/sql.js';
-import { dayBounds, funnelQuery, stepCountsQuery } from '../../service/warehouse/queries.js';
-import { createTestSchema, type TestSchema } from '../helpers/db.js';
+import type { DayRange } from '../../service/warehouse/engine.js';
 import { expectFunnelRows, expectStepRows } from '../helpers/compare.js';
 import { referenceFunnel, referenceStepCounts } from '../helpers/reference.js';
-import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+import { openTestWarehouse, propertyTimeout, TEST_ENGINES, type RawEvent, type TestWarehouse } from '../helpers/warehouse.js';
 
 const DAY = '2026-03-10';
 const TZ = 'America/New_York';
@@ -74,17 +72,13 @@ function toRows(journeys: Array<typeof journeyArb extends fc.Arbitrary<infer T> 
   });
 }
 
-describe('flows with overlapping steps (SQL vs brute-force reference)', () => {
-  let db: TestSchema;
-  let lo: Date;
-  let hi: Date;
-  const mapping = () => testMapping(db.schema);
+describe.each(TEST_ENGINES)('flows with overlapping steps on %s (vs brute-force reference)', (engine) => {
+  let db: TestWarehouse;
+  let range: DayRange;
 
   beforeAll(async () => {
-    db = await createTestSchema('overlap');
-    await createEventsTable(db.pool, db.schema);
-    const { rows } = await db.pool.query<{ lo: Date; hi: Date }>(dayBounds(DAY, TZ));
-    ({ lo, hi } = rows[0]!);
+    db = await openTestWarehouse(engine, 'overlap');
+    range = await db.warehouse.dayBounds(DAY, TZ);
   });
   afterAll(async () => db.drop());
 
@@ -93,17 +87,15 @@ describe('flows with overlapping steps (SQL vs brute-force reference)', () => {
       const definition = flow(entry);
       await fc.assert(
         fc.asyncProperty(fc.array(journeyArb, { minLength: 1, maxLength: 8 }), async (journeys) => {
-          const rows = toRows(journeys, lo);
-          await db.pool.query(`truncate ${quoteIdent(db.schema)}.events`);
-          await insertEvents(db.pool, db.schema, rows);
-
-          const { rows: funnel } = await db.pool.query(funnelQuery(mapping(), definition, lo, hi));
-          expectFunnelRows(funnel, referenceFunnel(rows, definition, mapping().platforms, mapping().dimensions, lo, hi), { timing: false });
-          const { rows: steps } = await db.pool.query(stepCountsQuery(mapping(), definition, lo, hi));
-          expectStepRows(steps, referenceStepCounts(rows, definition, mapping().platforms, lo, hi));
+          const rows = toRows(journeys, range.lo);
+          await db.clear();
+          await db.insert(rows);
+          const { funnel, steps } = await db.warehouse.flow(definition, range);
+          expectFunnelRows(funnel, referenceFunnel(rows, definition, db.mapping.platforms, db.mapping.dimensions, range.lo, range.hi), { timing: false });
+          expectStepRows(steps, referenceStepCounts(rows, definition, db.mapping.platforms, range.lo, range.hi));
         }),
         { numRuns: 40, seed: 20261204 },
       );
-    });
+    }, propertyTimeout(engine));
   }
 });

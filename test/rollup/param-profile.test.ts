@@ -1,6 +1,6 @@
 /**
- * The parameter profile rollup (`paramProfileQuery`) against a real
- * PostgreSQL, on a small hand-made day: counts per key and JSON type, top
+ * The parameter profile rollup of each warehouse engine (PostgreSQL, and
+ * ClickHouse in-process through chdb), on a small hand-made day: counts per key and JSON type, top
  * values in byte order on ties, distinct counts, keys whose values are not
  * grouped, number ranges and fractions; then through `rollupDay`, a key with
  * too many values on one day is no longer value-profiled on the next, and the
@@ -11,9 +11,10 @@ import type { FlowDefinition } from '../../checks/types.js';
 import { migrate } from '../../service/db/migrate.js';
 import { rollupDay, type RollupContext } from '../../service/rollup/rollup-day.js';
 import { selectParamDays } from '../../service/state/rollups.js';
-import { LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dayBounds, paramProfileQuery } from '../../service/warehouse/queries.js';
+import type { ParamProfileRow } from '../../service/warehouse/engine.js';
+import { LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH } from '../../service/warehouse/mapping.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+import { openTestWarehouse, TEST_ENGINES, type RawEvent, type TestWarehouse } from '../helpers/warehouse.js';
 
 const TZ = 'America/New_York';
 const DAY = '2026-06-10';
@@ -46,46 +47,30 @@ const DATASET: RawEvent[] = [
   ...Array.from({ length: 60 }, (_, i) => event('scan', { ticket: `t${String(i).padStart(2, '0')}` })),
 ];
 
-interface ProfileRow {
-  event: string;
-  platform: string;
-  version: string;
-  key: string;
-  json_type: string;
-  events: string;
-  distinct_values: string | number | null;
-  min_number: number | null;
-  max_number: number | null;
-  fractional: string;
-  top_values: Array<{ value: string; events: number }>;
-}
-
-describe('parameter profile rollup', () => {
-  let warehouse: TestSchema;
+describe.each(TEST_ENGINES)('parameter profile rollup on %s', (engine) => {
+  let warehouse: TestWarehouse;
   let state: TestSchema;
-  let rows: ProfileRow[];
+  let rows: ParamProfileRow[];
   const row = (event: string, platform: string, version: string, key: string, jsonType: string) => {
-    const found = rows.find((r) => r.event === event && r.platform === platform && r.version === version && r.key === key && r.json_type === jsonType);
+    const found = rows.find((r) => r.event === event && r.platform === platform && r.version === version && r.key === key && r.jsonType === jsonType);
     if (!found) throw new Error(`no profile row for ${event}/${platform}/${version}/${key}/${jsonType} in ${JSON.stringify(rows, null, 1)}`);
     return {
-      events: Number(found.events),
-      distinct: found.distinct_values === null ? null : Number(found.distinct_values),
-      min: found.min_number,
-      max: found.max_number,
-      fractional: Number(found.fractional),
-      top: found.top_values.map((top) => [top.value, Number(top.events)]),
+      events: found.events,
+      distinct: found.distinctValues,
+      min: found.minNumber,
+      max: found.maxNumber,
+      fractional: found.fractional,
+      top: found.topValues.map((top) => [top.value, top.events]),
     };
   };
 
   beforeAll(async () => {
-    warehouse = await createTestSchema('wh');
+    warehouse = await openTestWarehouse(engine, 'wh');
     state = await createTestSchema('st');
-    await createEventsTable(warehouse.pool, warehouse.schema);
     await migrate(state.pool, state.schema);
-    await insertEvents(warehouse.pool, warehouse.schema, DATASET);
-    const { rows: bounds } = await warehouse.pool.query<{ lo: Date; hi: Date }>(dayBounds(DAY, TZ));
-    const { lo, hi } = bounds[0]!;
-    ({ rows } = await warehouse.pool.query<ProfileRow>(paramProfileQuery(testMapping(warehouse.schema), lo, hi, ['purchase', 'scan'], ['purchase.session'])));
+    await warehouse.insert(DATASET);
+    const range = await warehouse.warehouse.dayBounds(DAY, TZ);
+    rows = await warehouse.warehouse.paramProfiles(range, ['purchase', 'scan'], ['purchase.session']);
   });
   afterAll(async () => {
     await warehouse?.drop();
@@ -93,7 +78,7 @@ describe('parameter profile rollup', () => {
   });
 
   it('profiles only watched events of the day with object parameters, one row per key and JSON type', () => {
-    const groups = [...new Set(rows.map((r) => `${r.event} ${r.platform} ${r.version || '(none)'} ${r.key} ${r.json_type}`))].sort();
+    const groups = [...new Set(rows.map((r) => `${r.event} ${r.platform} ${r.version || '(none)'} ${r.key} ${r.jsonType}`))].sort();
     expect(groups).toEqual([
       'purchase android 7.1.0 amount_cents null',
       'purchase android 7.1.0 amount_cents number',
@@ -179,8 +164,8 @@ describe('parameter profile rollup', () => {
       events: ['scan', 'purchase'],
       contracts: {},
     };
-    const ctx: RollupContext = { warehouse: warehouse.pool, state: state.pool, stateSchema: state.schema, mapping: testMapping(warehouse.schema), timezone: TZ, flows: [flow], workMem: '64MB' };
-    await insertEvents(warehouse.pool, warehouse.schema, ['t01', 't02', 't02'].map((ticket) => event('scan', { ticket, line: 'L01' }, 'Android', '7.1.0', NEXT)));
+    const ctx: RollupContext = { warehouse: warehouse.warehouse, state: state.pool, stateSchema: state.schema, timezone: TZ, flows: [flow] };
+    await warehouse.insert(['t01', 't02', 't02'].map((ticket) => event('scan', { ticket, line: 'L01' }, 'Android', '7.1.0', NEXT)));
     await rollupDay(ctx, DAY);
     await rollupDay(ctx, NEXT);
     const { rows: stored } = await state.pool.query<{ day: string; key: string; distinctValues: number | null; topValues: unknown[]; events: number; eventTotal: number }>(

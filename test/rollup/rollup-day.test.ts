@@ -1,7 +1,9 @@
 /**
- * The daily rollup against a real PostgreSQL: day boundaries in the business
- * timezone on the two 2026 DST days of America/New_York (23 and 25 hours),
- * and idempotence (a rerun of a day leaves exactly what the first run left).
+ * The daily rollup on each warehouse engine (PostgreSQL, and ClickHouse
+ * in-process through chdb), state in PostgreSQL: day boundaries in the
+ * business timezone on the two 2026 DST days of America/New_York (23 and 25
+ * hours), and idempotence (a rerun of a day leaves exactly what the first run
+ * left).
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
@@ -9,7 +11,7 @@ import { migrate } from '../../service/db/migrate.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { rollupDay, type RollupContext } from '../../service/rollup/rollup-day.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { createEventsTable, insertEvents, testMapping, type RawEvent } from '../helpers/warehouse.js';
+import { openTestWarehouse, TEST_ENGINES, type RawEvent, type TestWarehouse } from '../helpers/warehouse.js';
 
 const TZ = 'America/New_York';
 
@@ -32,29 +34,20 @@ function event(iso: string, name: string, user: string, props: Record<string, un
   return { at: new Date(iso), name, user, device: null, platform, version: '7.1.0', props, country: 'US', channel: 'direct' };
 }
 
-describe('rollupDay', () => {
-  let warehouse: TestSchema;
+describe.each(TEST_ENGINES)('rollupDay on %s', (engine) => {
+  let warehouse: TestWarehouse;
   let state: TestSchema;
   let ctx: RollupContext;
 
   beforeAll(async () => {
-    warehouse = await createTestSchema('wh');
+    warehouse = await openTestWarehouse(engine, 'wh');
     state = await createTestSchema('st');
-    await createEventsTable(warehouse.pool, warehouse.schema);
     await migrate(state.pool, state.schema);
-    ctx = {
-      warehouse: warehouse.pool,
-      state: state.pool,
-      stateSchema: state.schema,
-      mapping: testMapping(warehouse.schema),
-      timezone: TZ,
-      flows: [flow],
-      workMem: '64MB',
-    };
+    ctx = { warehouse: warehouse.warehouse, state: state.pool, stateSchema: state.schema, timezone: TZ, flows: [flow] };
     // Instants are UTC. New York is UTC-5 in winter, UTC-4 in summer; clocks jump
     // at 02:00 local on 2026-03-08 (spring forward) and 2026-11-01 (fall back), per
     // the US Energy Policy Act of 2005 rules as encoded in the IANA tz database.
-    await insertEvents(warehouse.pool, warehouse.schema, [
+    await warehouse.insert([
       // 2026-03-07 (EST): the last instant before local midnight belongs to the 7th.
       event('2026-03-08T04:59:59Z', 'screen_shown', 'a', { view: 'intro' }),
       // 2026-03-08: starts 05:00Z (EST midnight), ends 04:00Z on the 9th (EDT midnight): 23 hours.
@@ -136,7 +129,7 @@ describe('rollupDay', () => {
     await rollupDay(ctx, '2026-03-08');
     expect(await snapshot()).toEqual(first);
 
-    await insertEvents(warehouse.pool, warehouse.schema, [event('2026-03-08T12:00:00Z', 'screen_shown', 'late', { view: 'intro' })]);
+    await warehouse.insert([event('2026-03-08T12:00:00Z', 'screen_shown', 'late', { view: 'intro' })]);
     await rollupDay(ctx, '2026-03-08');
     const after = await snapshot();
     const android = (after.day_status as Array<{ platform: string; events: string; previous_events: string }>).find((r) => r.platform === 'android')!;
