@@ -1,0 +1,41 @@
+with per_person as (
+  select event, platform, person, count(*)::int as n, min(version) as version_lo, max(version) as version_hi, min(d0) as d0, min(d1) as d1
+  from (
+    select (e."event_name"::text collate "C") as event, (case when e."platform"::text = any($3::text[]) then $4::text when e."platform"::text = any($5::text[]) then $6::text when e."platform"::text = any($7::text[]) then $8::text else $9::text end collate "C") as platform, (coalesce(e."app_version"::text, '') collate "C") as version, (coalesce('u:' || e."user_id"::text, 'd:' || e."device_id"::text) collate "C") as person, (coalesce(e."country"::text, '') collate "C") as d0, (coalesce(e."channel"::text, '') collate "C") as d1
+    from "analytics"."events" e
+    where e."occurred_at" >= $1 and e."occurred_at" < $2
+  ) r
+  group by event, platform, person
+),
+-- One cell per event, platform, version and dimension values; people with several versions get a cell each.
+cells as (
+  select event, platform, version, several, d0, d1, sum(n) as n, count(person) as people
+  from (
+    select per_person.*,
+           case when version_lo = version_hi then version_lo end as version,
+           case when version_lo <> version_hi then coalesce(person, '') end as several
+    from per_person
+  ) s
+  group by event, platform, version, several, d0, d1
+),
+several_versions as (
+  select event, platform, version, count(*) as n, count(distinct person) as people
+  from (
+    select (e."event_name"::text collate "C") as event, (case when e."platform"::text = any($10::text[]) then $11::text when e."platform"::text = any($12::text[]) then $13::text when e."platform"::text = any($14::text[]) then $15::text else $16::text end collate "C") as platform, (coalesce(e."app_version"::text, '') collate "C") as version, (coalesce('u:' || e."user_id"::text, 'd:' || e."device_id"::text) collate "C") as person
+    from "analytics"."events" e
+    where e."occurred_at" >= $1 and e."occurred_at" < $2
+  ) r
+  where (event, platform, coalesce(person, '')) in (select event, platform, several from cells where several is not null)
+  group by event, platform, version
+)
+select event, platform, version, '' as dimension, '' as value, sum(n) as events, sum(people) as people
+from (
+  select event, platform, version, n, people from cells where version is not null
+  union all select event, platform, version, n, people from several_versions
+) v
+group by event, platform, version
+union all select event, platform, '*', '', '', sum(n), sum(people) from cells group by event, platform
+union all select event, platform, '*', $17::text, d0, sum(n), sum(people) from cells group by event, platform, d0
+union all select event, platform, '*', $18::text, d1, sum(n), sum(people) from cells group by event, platform, d1
+
+-- values: ["2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other","country","channel"]

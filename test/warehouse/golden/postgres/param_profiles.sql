@@ -1,0 +1,49 @@
+with kv as (
+  select r.event, r.raw_platform, r.version, kv.key, jsonb_typeof(kv.value) as json_type,
+         case when r.event = $1::text then kv.key <> all($2::text[]) else true end as tracked,
+         kv.value
+  from (
+    select (e."event_name"::text collate "C") as event, e."platform"::text as raw_platform, (coalesce(e."app_version"::text, '') collate "C") as version, e."props" as props
+    from "analytics"."events" e
+    where e."occurred_at" >= $3 and e."occurred_at" < $4 and (e."event_name"::text collate "C") = any($5::text[])
+      and jsonb_typeof(e."props") = 'object'
+  ) r
+  cross join lateral jsonb_each(r.props) as kv(key, value)
+),
+raw_grouped as (
+  select event, raw_platform, version, key, json_type, tracked,
+         case when tracked and json_type in ('string', 'number', 'boolean') then left(value #>> '{}', 64) end as value,
+         count(*) as n, min(number) as min_number, max(number) as max_number,
+         count(*) filter (where number <> trunc(number)) as fractional
+  from (select kv.*, case when json_type = 'number' then (value)::float8 end as number from kv) k
+  group by 1, 2, 3, 4, 5, 6, 7
+),
+grouped as (
+  select event, (case when raw_platform = any($6::text[]) then $7::text when raw_platform = any($8::text[]) then $9::text when raw_platform = any($10::text[]) then $11::text else $12::text end collate "C") as platform, version, key, json_type, tracked, value,
+         sum(n) as n, min(min_number) as min_number, max(max_number) as max_number, sum(fractional) as fractional
+  from raw_grouped
+  group by 1, 2, 3, 4, 5, 6, 7
+),
+totals as (
+  select event, platform, version, key, json_type, bool_and(tracked) as tracked, sum(n) as events, count(value) as distinct_values,
+         min(min_number) as min_number, max(max_number) as max_number, sum(fractional) as fractional
+  from grouped group by 1, 2, 3, 4, 5
+),
+tops as (
+  select event, platform, version, key, json_type,
+         jsonb_agg(jsonb_build_object('value', value, 'events', n) order by rank) as top_values
+  from (
+    select *, row_number() over (partition by event, platform, version, key, json_type order by n desc, value collate "C") as rank
+    from grouped where value is not null
+  ) r
+  where rank <= 12
+  group by 1, 2, 3, 4, 5
+)
+select t.event, t.platform, t.version, t.key, t.json_type, t.events,
+       case when t.tracked then t.distinct_values end as distinct_values,
+       t.min_number, t.max_number, t.fractional,
+       case when t.tracked and t.distinct_values <= 50 then coalesce(tops.top_values, '[]'::jsonb) else '[]'::jsonb end as top_values
+from totals t
+left join tops using (event, platform, version, key, json_type)
+
+-- values: ["pass_purchase_result",["amount_cents"],"2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["pass_purchase_result","zone_selected"],["web","Web"],"web",["Android"],"android",["iOS"],"ios","other"]
