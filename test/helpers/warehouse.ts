@@ -141,7 +141,8 @@ async function openClickHouse(prefix: string): Promise<TestWarehouse> {
   };
 }
 
-function clickHouseRow(e: RawEvent): Record<string, unknown> {
+/** A test event as a row of the ClickHouse events table. */
+export function clickHouseRow(e: RawEvent): Record<string, unknown> {
   return {
     occurred_at: e.at.toISOString().replace('T', ' ').replace('Z', ''),
     event_name: e.name,
