@@ -111,7 +111,26 @@ const cases: Case[] = [
     name: 'a misspelt nested key',
     changes: { [MAIN]: replace('events_table:', 'event_table:') },
     problems: [
-      'config/plumbline.yaml:5:3 warehouse.event_table: expected one of the keys url, events_table, columns, dimensions, platforms, work_mem, found unknown key "event_table" (did you mean events_table?)',
+      'config/plumbline.yaml:5:3 warehouse.event_table: expected one of the keys engine, url, events_table, columns, dimensions, platforms, work_mem, statement_timeout, tls_ca_file, embedded_dir, found unknown key "event_table" (did you mean events_table?)',
+    ],
+  },
+  {
+    name: 'an unknown warehouse engine',
+    changes: { [MAIN]: replace('  events_table: transit.events', '  engine: duckling\n  events_table: transit.events') },
+    problems: ['config/plumbline.yaml:5:11 warehouse.engine: expected one of "postgres", "clickhouse", found string "duckling"'],
+  },
+  {
+    name: 'a ClickHouse warehouse URL without a state database',
+    changes: { [MAIN]: (text) => replace('state:\n  url: ${PLUMBLINE_STATE_URL:-}\n', '')(replace('  events_table:', '  engine: clickhouse\n  events_table:')(text)) },
+    problems: [
+      'config/plumbline.yaml:4:8 warehouse.url: expected state.url as well: the state stays in PostgreSQL when the warehouse is ClickHouse, found no state.url',
+    ],
+  },
+  {
+    name: 'a certificate authority file for a PostgreSQL warehouse',
+    changes: { [MAIN]: replace('  events_table: transit.events', '  tls_ca_file: /etc/ca.pem\n  events_table: transit.events') },
+    problems: [
+      'config/plumbline.yaml:5:16 warehouse.tls_ca_file: expected engine: clickhouse (a PostgreSQL URL names its certificates itself, e.g. sslrootcert=), found engine: postgres',
     ],
   },
   {
