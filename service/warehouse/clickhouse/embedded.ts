@@ -11,12 +11,14 @@
  */
 import { mkdirSync } from 'node:fs';
 import { resolve } from 'node:path';
+import type * as Chdb from 'chdb';
 import { OUTPUT_SETTINGS, parseRows, type ClickHouseConnection } from './connection.js';
 import type { ChQuery } from './sql.js';
 
 export const CHDB_INSTALL_HINT = 'the embedded ClickHouse engine needs the chdb package (about 540 MB, Linux and macOS): run `npm install chdb` in the plumbline folder';
 
-type ChdbSession = InstanceType<typeof import('chdb').Session>;
+// Types only: erased at run time, so a missing chdb fails at the dynamic import below, with the hint.
+type ChdbSession = InstanceType<typeof Chdb.Session>;
 
 let shared: { dataDir: string; session: ChdbSession; users: number } | undefined;
 
@@ -57,7 +59,7 @@ export async function openEmbedded(options: { dataDir: string; timeoutSeconds: n
   };
 }
 
-async function loadChdb(): Promise<typeof import('chdb')> {
+async function loadChdb(): Promise<typeof Chdb> {
   try {
     return await import('chdb');
   } catch (error) {

@@ -4,7 +4,7 @@
  * is unchanged, and sorts on them (grouping, ordered aggregates) compare bytes
  * instead of calling the server's locale, which is several times slower.
  */
-import { Params, quoteIdent, quoteQualified } from '../../db/sql.js';
+import { quoteIdent, quoteQualified, type Params } from '../../db/sql.js';
 import { UNMAPPED_PLATFORM, type WarehouseMapping } from '../mapping.js';
 
 export class Columns {
