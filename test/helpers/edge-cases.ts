@@ -23,11 +23,11 @@ export function edgeCaseDay(): RawEvent[] {
   const pick = <T>(items: readonly T[]) => items[Math.floor(next() * items.length)]!;
   const start = Date.parse('2026-03-08T04:30:00Z');
   const values = [
-    { screen: 'pass_intro' },
-    { screen: 'zone_picker', extra: null },
-    { screen: 'rider_details', fare_zone: 'AB', rider_type: pick(['adult', 'student']) },
-    { screen: 'pay_review', amount_cents: 4850.5 },
-    { screen: 'signup_form', nested: { a: [1, 2] }, list: [true, null] },
+    { view: 'pass_intro' },
+    { view: 'zone_picker', extra: null },
+    { view: 'rider_details', fare_zone: 'AB', rider_type: pick(['adult', 'student']) },
+    { view: 'pay_review', amount_cents: 4850.5 },
+    { view: 'signup_form', nested: { a: [1, 2] }, list: [true, null] },
     { outcome: 'approved', amount_cents: 9700, pass_type: 'monthly' },
     { outcome: 'declined', amount_cents: -3, test: true },
     { outcome: 'approved', amount_cents: '12' },
@@ -42,7 +42,7 @@ export function edgeCaseDay(): RawEvent[] {
     let at = start + Math.floor(next() * 23 * 3600) * 1000;
     for (let k = 0; k < 1 + Math.floor(next() * 8); k++) {
       const props = pick(values);
-      const name = 'screen' in props ? 'screen_view' : 'outcome' in props ? 'pass_purchase_result' : pick(['signup_submitted', 'email_verified']);
+      const name = 'view' in props ? 'screen_shown' : 'outcome' in props ? 'pass_purchase_result' : pick(['signup_submitted', 'email_verified']);
       events.push({
         at: new Date(at),
         name,

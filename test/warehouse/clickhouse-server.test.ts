@@ -82,8 +82,8 @@ describe.skipIf(unavailable !== undefined)(`a ClickHouse server (${IMAGE}) throu
   it('gives the PostgreSQL day bounds, event counts, parameter profiles and hourly counts', async () => {
     expect(await server.dayBounds('2026-03-08', 'America/New_York')).toEqual(range);
     expect(sorted(await server.eventCounts(range))).toEqual(sorted(await postgres.warehouse.eventCounts(range)));
-    expect(sorted(await server.paramProfiles(range, ['screen_view', 'pass_purchase_result'], []))).toEqual(
-      sorted(await postgres.warehouse.paramProfiles(range, ['screen_view', 'pass_purchase_result'], [])),
+    expect(sorted(await server.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], []))).toEqual(
+      sorted(await postgres.warehouse.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], [])),
     );
     expect(sorted(await server.hourCounts(range))).toEqual(sorted(await postgres.warehouse.hourCounts(range)));
   });

@@ -43,7 +43,7 @@ describe('PostgreSQL and ClickHouse give identical rollups', () => {
     ...demoFlows,
     { ...monthlyPass, id: 'monthly_pass_any_step', entry: 'any_step' },
     // Steps that match the same events: any screen, then the zone picker.
-    { ...monthlyPass, id: 'any_screen', steps: [{ name: 'screen', event: 'screen_view', where: {} }, ...monthlyPass.steps.slice(1)] },
+    { ...monthlyPass, id: 'any_screen', steps: [{ name: 'screen', event: 'screen_shown', where: {} }, ...monthlyPass.steps.slice(1)] },
   ];
 
   beforeAll(async () => {

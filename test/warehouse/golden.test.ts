@@ -28,13 +28,13 @@ function flow(entry: FlowDefinition['entry'], steps: FlowDefinition['steps']): F
 }
 /** Steps that never match the same event, and steps that can (any screen, then one screen). */
 const exclusive = flow('first_step_only', [
-  { name: 'intro', event: 'screen_view', where: { screen: 'pass_intro' } },
-  { name: 'zone', event: 'screen_view', where: { screen: ['zone_picker', 'zone_v2'] } },
+  { name: 'intro', event: 'screen_shown', where: { view: 'pass_intro' } },
+  { name: 'zone', event: 'screen_shown', where: { view: ['zone_picker', 'zone_v2'] } },
   { name: 'done', event: 'pass_purchase_result', where: { outcome: 'approved', test: false } },
 ]);
 const overlapping = flow('any_step', [
-  { name: 'screen', event: 'screen_view', where: {} },
-  { name: 'zone', event: 'screen_view', where: { screen: 'zone_picker' } },
+  { name: 'screen', event: 'screen_shown', where: {} },
+  { name: 'zone', event: 'screen_shown', where: { view: 'zone_picker' } },
   { name: 'pay', event: 'tap_pay', where: {} },
 ]);
 // The demo's column types; the params column as JSON text.

@@ -60,4 +60,4 @@ select 'funnel' as kind, platform, version, dimension, value, entered_all as ent
   [0, length(sorted1), length(sorted2)] as timed
 from funnel_cells
 
--- values: {"p1":1773028800000000,"p2":"screen_view","p3":"screen_view","p4":["zone_picker"],"p5":"tap_pay","p6":["web","Web","Android","iOS"],"p7":["web","web","android","ios"],"p8":"other","p9":["screen_view"],"p10":"screen","p11":"2026-03-08 05:00:00.000","p12":"2026-03-09 04:30:00.000","p13":["screen_view","tap_pay"],"p14":1800000000,"p15":300,"p16":"country","p17":"channel"}
+-- values: {"p1":1773028800000000,"p2":"screen_shown","p3":"screen_shown","p4":["zone_picker"],"p5":"tap_pay","p6":["web","Web","Android","iOS"],"p7":["web","web","android","ios"],"p8":"other","p9":["screen_shown"],"p10":"view","p11":"2026-03-08 05:00:00.000","p12":"2026-03-09 04:30:00.000","p13":["screen_shown","tap_pay"],"p14":1800000000,"p15":300,"p16":"country","p17":"channel"}

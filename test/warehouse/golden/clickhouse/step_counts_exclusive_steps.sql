@@ -17,4 +17,4 @@ from step_events
 where at < {p1:Int64}
 group by grouping sets ((platform, event_version, step), (platform, step))
 
--- values: {"p1":1773028800000000,"p2":"screen_view","p3":["pass_intro"],"p4":"screen_view","p5":["zone_picker","zone_v2"],"p6":"pass_purchase_result","p7":["approved"],"p8":["false"],"p9":["web","Web","Android","iOS"],"p10":["web","web","android","ios"],"p11":"other","p12":["screen_view"],"p13":"screen","p14":["pass_purchase_result"],"p15":"outcome","p16":["pass_purchase_result"],"p17":"test","p18":"2026-03-08 05:00:00.000","p19":"2026-03-09 04:30:00.000","p20":["screen_view","pass_purchase_result"]}
+-- values: {"p1":1773028800000000,"p2":"screen_shown","p3":["pass_intro"],"p4":"screen_shown","p5":["zone_picker","zone_v2"],"p6":"pass_purchase_result","p7":["approved"],"p8":["false"],"p9":["web","Web","Android","iOS"],"p10":["web","web","android","ios"],"p11":"other","p12":["screen_shown"],"p13":"view","p14":["pass_purchase_result"],"p15":"outcome","p16":["pass_purchase_result"],"p17":"test","p18":"2026-03-08 05:00:00.000","p19":"2026-03-09 04:30:00.000","p20":["screen_shown","pass_purchase_result"]}

@@ -89,4 +89,4 @@ select 'step'::text as kind, platform, version, '' as dimension, '' as value,
   step, sum(events) as events, sum(people) as people
 from step_rows group by platform, version, step
 
--- values: ["1800 seconds","2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z","screen_view","screen",["pass_intro"],"screen_view","screen",["zone_picker","zone_v2"],"pass_purchase_result","outcome",["approved"],"test",["false"],["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["screen_view","pass_purchase_result"],"country","channel",300]
+-- values: ["1800 seconds","2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z","screen_shown","view",["pass_intro"],"screen_shown","view",["zone_picker","zone_v2"],"pass_purchase_result","outcome",["approved"],"test",["false"],["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["screen_shown","pass_purchase_result"],"country","channel",300]

@@ -91,4 +91,4 @@ select 'step'::text as kind, platform, version, '' as dimension, '' as value,
   step, sum(events) as events, sum(people) as people
 from step_rows group by platform, version, step
 
--- values: ["1800 seconds","2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z","screen_view","screen_view","screen",["zone_picker"],"tap_pay",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["screen_view","tap_pay"],"country","channel",300]
+-- values: ["1800 seconds","2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z","screen_shown","screen_shown","view",["zone_picker"],"tap_pay",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["screen_shown","tap_pay"],"country","channel",300]
