@@ -29,7 +29,7 @@ export function funnelQuery(table: EventsTable, flow: FlowDefinition, range: Day
   const p = new ChParams();
   const f = new FlowParts(table, flow, p, range);
   const text = `
-with ${[f.stepEventsCte(), f.journeysCte(), f.pathsCte(), f.pathGroupsCte(), f.funnelCellsCte()].join(',\n')}
+with ${[f.stepEventsCte(), f.journeysCte(), ...f.reachCtes(), f.pathsCte(), f.pathGroupsCte(), f.funnelCellsCte()].join(',\n')}
 ${f.funnelRows()}`;
   return { text, params: p.values };
 }
@@ -87,13 +87,17 @@ class FlowParts {
       ? `multiIf(${conditions.map((cond, i) => `${cond}, ${i}`).join(', ')}, -1) as step`
       : `arrayFilter(s -> s >= 0, [${conditions.map((cond, i) => `if(${cond}, ${i}, -1)`).join(', ')}]) as matched`;
     const windowEnd = new Date(this.range.hi.getTime() + flow.conversionWindowSeconds * 1000);
+    const roles = `${c.person} as person, ${c.platform} as platform, ${c.version} as event_version, ${c.micros} as at${this.dims.map((d) => `, ${c.dimension(d.name)} as ${d.alias}`).join('')}`;
+    // Three levels, so the step's conditions read the parameters as columns, not as copies of their expressions.
     return `step_events as (
   select person, platform, event_version, at${this.dims.map((d) => `, ${d.alias}`).join('')}, step
   from (
-    select ${c.person} as person, ${c.platform} as platform, ${c.version} as event_version, ${c.micros} as at${this.dims.map((d) => `, ${c.dimension(d.name)} as ${d.alias}`).join('')},
-           ${[`${c.name} as event`, ...keys.map(param), step].join(',\n           ')}
-    from ${c.table}
-    where ${c.inRange(p.instant(this.range.lo), p.instant(windowEnd))} and has(${p.add([...new Set(flow.steps.map((s) => s.event))], 'Array(String)')}, event)
+    select *, ${step}
+    from (
+      select ${roles}, ${[`${c.name} as event`, ...keys.map(param)].join(', ')}
+      from ${c.table}
+      where ${c.inRange(p.instant(this.range.lo), p.instant(windowEnd))} and has(${p.add([...new Set(flow.steps.map((s) => s.event))], 'Array(String)')}, event)
+    )
   )
   ${exclusive ? 'where step >= 0' : 'array join matched as step'}
 )`;
@@ -118,24 +122,35 @@ class FlowParts {
   having countIf(${entry}) > 0
 )`;
   }
-  /** t_i: when the person reached step i, null when not; g_i: seconds from step i-1 to step i. */
-  pathsCte(): string {
-    const deadline = `t_entry + ${this.p.add(this.flow.conversionWindowSeconds * 1_000_000, 'Int64')}`;
-    const reach = (i: number) => {
-      if (i === 0) return `if(entry_step = 0, t_entry, null) as t0`;
+  /**
+   * t_i, when the person reached step i (null when not), one CTE per step:
+   * each reads the previous step's time as a column, so no expression is
+   * copied into the next (ClickHouse expands an alias wherever it is used).
+   */
+  reachCtes(): string[] {
+    const window = this.p.add(this.flow.conversionWindowSeconds * 1_000_000, 'Int64');
+    return this.steps.map((i) => {
+      const from = i === 0 ? 'journeys' : `reach_${i - 1}`;
+      if (i === 0) return `reach_0 as (select *, if(entry_step = 0, t_entry, null) as t0 from ${from})`;
       const previous = `t${i - 1}`;
-      const inWindow = `arrayFilter(x -> x >= assumeNotNull(${previous}) and x <= ${deadline}, s${i})`;
-      // Most people have one event of the step: read it without a lambda.
-      return `multiIf(entry_step = ${i}, t_entry, entry_step > ${i} or ${previous} is null or empty(s${i}), null,
-                 length(s${i}) = 1, if(s${i}[1] >= ${previous} and s${i}[1] <= ${deadline}, s${i}[1], null),
-                 notEmpty(${inWindow}), arrayMin(${inWindow}), null) as t${i}`;
-    };
+      const inWindow = `arrayFilter(x -> x >= assumeNotNull(${previous}) and x <= t_entry + ${window}, s${i})`;
+      // Most people have one event of the step: it is read without a lambda.
+      return `reach_${i} as (
+  select *, multiIf(entry_step = ${i}, t_entry, entry_step > ${i} or ${previous} is null or empty(s${i}), null,
+                    length(s${i}) = 1, if(s${i}[1] >= ${previous} and s${i}[1] <= t_entry + ${window}, s${i}[1], null),
+                    notEmpty(${inWindow}), arrayMin(${inWindow}), null) as t${i}
+  from ${from}
+)`;
+    });
+  }
+
+  /** One path per entrant: entry step and attributes, when each step was reached, and g_i, the seconds from step i-1 to step i. */
+  pathsCte(): string {
     const gaps = this.steps.slice(1).map((i) => `(t${i} - t${i - 1}) / 1e6 as g${i}`);
     return `paths as (
   select platform, entry_step, entry_version${this.dims.map((d) => `, entry_${d.alias}`).join('')},
-         ${this.steps.map(reach).join(',\n         ')},
-         ${gaps.join(', ')}
-  from journeys
+         ${this.steps.map((i) => `t${i}`).join(', ')}, ${gaps.join(', ')}
+  from reach_${this.steps.length - 1}
 )`;
   }
 

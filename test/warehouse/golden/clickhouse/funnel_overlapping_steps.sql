@@ -1,12 +1,12 @@
 with step_events as (
   select person, platform, event_version, at, d0, d1, step
   from (
-    select coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id"))) as person, transform(e."platform", {p6:Array(String)}, {p7:Array(String)}, {p8:String}) as platform, coalesce(e."app_version", '') as event_version, toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) as at, coalesce(e."country", '') as d0, coalesce(toString(e."channel"), '') as d1,
-           e."event_name" as event,
-           if(has({p9:Array(String)}, event), JSONExtract(e."props", {p10:String}, 'Nullable(String)'), null) as param_0,
-           arrayFilter(s -> s >= 0, [if((event = {p2:String}), 0, -1), if((event = {p3:String} and has({p4:Array(String)}, param_0)), 1, -1), if((event = {p5:String}), 2, -1)]) as matched
-    from "analytics"."events" as e
-    where e."occurred_at" >= {p11:DateTime64(6, 'UTC')} and e."occurred_at" < {p12:DateTime64(6, 'UTC')} and has({p13:Array(String)}, event)
+    select *, arrayFilter(s -> s >= 0, [if((event = {p2:String}), 0, -1), if((event = {p3:String} and has({p4:Array(String)}, param_0)), 1, -1), if((event = {p5:String}), 2, -1)]) as matched
+    from (
+      select coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id"))) as person, transform(e."platform", {p6:Array(String)}, {p7:Array(String)}, {p8:String}) as platform, coalesce(e."app_version", '') as event_version, toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) as at, coalesce(e."country", '') as d0, coalesce(toString(e."channel"), '') as d1, e."event_name" as event, if(has({p9:Array(String)}, event), JSONExtract(e."props", {p10:String}, 'Nullable(String)'), null) as param_0
+      from "analytics"."events" as e
+      where e."occurred_at" >= {p11:DateTime64(6, 'UTC')} and e."occurred_at" < {p12:DateTime64(6, 'UTC')} and has({p13:Array(String)}, event)
+    )
   )
   array join matched as step
 ),
@@ -24,17 +24,23 @@ journeys as (
   group by person, platform
   having countIf(at < {p1:Int64}) > 0
 ),
+reach_0 as (select *, if(entry_step = 0, t_entry, null) as t0 from journeys),
+reach_1 as (
+  select *, multiIf(entry_step = 1, t_entry, entry_step > 1 or t0 is null or empty(s1), null,
+                    length(s1) = 1, if(s1[1] >= t0 and s1[1] <= t_entry + {p14:Int64}, s1[1], null),
+                    notEmpty(arrayFilter(x -> x >= assumeNotNull(t0) and x <= t_entry + {p14:Int64}, s1)), arrayMin(arrayFilter(x -> x >= assumeNotNull(t0) and x <= t_entry + {p14:Int64}, s1)), null) as t1
+  from reach_0
+),
+reach_2 as (
+  select *, multiIf(entry_step = 2, t_entry, entry_step > 2 or t1 is null or empty(s2), null,
+                    length(s2) = 1, if(s2[1] >= t1 and s2[1] <= t_entry + {p14:Int64}, s2[1], null),
+                    notEmpty(arrayFilter(x -> x >= assumeNotNull(t1) and x <= t_entry + {p14:Int64}, s2)), arrayMin(arrayFilter(x -> x >= assumeNotNull(t1) and x <= t_entry + {p14:Int64}, s2)), null) as t2
+  from reach_1
+),
 paths as (
   select platform, entry_step, entry_version, entry_d0, entry_d1,
-         if(entry_step = 0, t_entry, null) as t0,
-         multiIf(entry_step = 1, t_entry, entry_step > 1 or t0 is null or empty(s1), null,
-                 length(s1) = 1, if(s1[1] >= t0 and s1[1] <= t_entry + {p14:Int64}, s1[1], null),
-                 notEmpty(arrayFilter(x -> x >= assumeNotNull(t0) and x <= t_entry + {p14:Int64}, s1)), arrayMin(arrayFilter(x -> x >= assumeNotNull(t0) and x <= t_entry + {p14:Int64}, s1)), null) as t1,
-         multiIf(entry_step = 2, t_entry, entry_step > 2 or t1 is null or empty(s2), null,
-                 length(s2) = 1, if(s2[1] >= t1 and s2[1] <= t_entry + {p14:Int64}, s2[1], null),
-                 notEmpty(arrayFilter(x -> x >= assumeNotNull(t1) and x <= t_entry + {p14:Int64}, s2)), arrayMin(arrayFilter(x -> x >= assumeNotNull(t1) and x <= t_entry + {p14:Int64}, s2)), null) as t2,
-         (t1 - t0) / 1e6 as g1, (t2 - t1) / 1e6 as g2
-  from journeys
+         t0, t1, t2, (t1 - t0) / 1e6 as g1, (t2 - t1) / 1e6 as g2
+  from reach_2
 ),
 path_groups as (
   select platform, entry_version, entry_d0, entry_d1,

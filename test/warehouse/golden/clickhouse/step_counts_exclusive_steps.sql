@@ -1,14 +1,12 @@
 with step_events as (
   select person, platform, event_version, at, d0, d1, step
   from (
-    select coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id"))) as person, transform(e."platform", {p9:Array(String)}, {p10:Array(String)}, {p11:String}) as platform, coalesce(e."app_version", '') as event_version, toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) as at, coalesce(e."country", '') as d0, coalesce(toString(e."channel"), '') as d1,
-           e."event_name" as event,
-           if(has({p12:Array(String)}, event), JSONExtract(e."props", {p13:String}, 'Nullable(String)'), null) as param_0,
-           if(has({p14:Array(String)}, event), JSONExtract(e."props", {p15:String}, 'Nullable(String)'), null) as param_1,
-           if(has({p16:Array(String)}, event), JSONExtract(e."props", {p17:String}, 'Nullable(String)'), null) as param_2,
-           multiIf((event = {p2:String} and has({p3:Array(String)}, param_0)), 0, (event = {p4:String} and has({p5:Array(String)}, param_0)), 1, (event = {p6:String} and has({p7:Array(String)}, param_1) and has({p8:Array(String)}, param_2)), 2, -1) as step
-    from "analytics"."events" as e
-    where e."occurred_at" >= {p18:DateTime64(6, 'UTC')} and e."occurred_at" < {p19:DateTime64(6, 'UTC')} and has({p20:Array(String)}, event)
+    select *, multiIf((event = {p2:String} and has({p3:Array(String)}, param_0)), 0, (event = {p4:String} and has({p5:Array(String)}, param_0)), 1, (event = {p6:String} and has({p7:Array(String)}, param_1) and has({p8:Array(String)}, param_2)), 2, -1) as step
+    from (
+      select coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id"))) as person, transform(e."platform", {p9:Array(String)}, {p10:Array(String)}, {p11:String}) as platform, coalesce(e."app_version", '') as event_version, toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) as at, coalesce(e."country", '') as d0, coalesce(toString(e."channel"), '') as d1, e."event_name" as event, if(has({p12:Array(String)}, event), JSONExtract(e."props", {p13:String}, 'Nullable(String)'), null) as param_0, if(has({p14:Array(String)}, event), JSONExtract(e."props", {p15:String}, 'Nullable(String)'), null) as param_1, if(has({p16:Array(String)}, event), JSONExtract(e."props", {p17:String}, 'Nullable(String)'), null) as param_2
+      from "analytics"."events" as e
+      where e."occurred_at" >= {p18:DateTime64(6, 'UTC')} and e."occurred_at" < {p19:DateTime64(6, 'UTC')} and has({p20:Array(String)}, event)
+    )
   )
   where step >= 0
 )
