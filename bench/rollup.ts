@@ -29,7 +29,7 @@ import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pg from 'pg';
-import { toFlowDefinition, toWarehouseMapping } from '../service/config/definitions.js';
+import { toFlowDefinition, toWarehouseMapping, toWarehouseSettings } from '../service/config/definitions.js';
 import { loadConfig } from '../service/config/load.js';
 import { migrate } from '../service/db/migrate.js';
 import { quoteIdent, quoteQualified, type Query } from '../service/db/sql.js';
@@ -96,14 +96,14 @@ async function measure(pool: pg.Pool, options: RollupBenchOptions): Promise<Figu
 
   const config = loadConfig('config', { env: {} });
   const flows = config.flows.map((flow) => toFlowDefinition(flow.config));
-  const settings = config.main.warehouse;
+  const settings = toWarehouseSettings(config.main);
   const mapping = (table: string): WarehouseMapping => ({ ...toWarehouseMapping(config.main), table });
   // The pools stay the bench's own: the warehouses are not closed.
   const postgres = { h30: openPostgresWarehouse(pool, mapping(data.tables.h30), settings), h365: openPostgresWarehouse(pool, mapping(data.tables.h365), settings) };
   const context = (warehouse: Warehouse): RollupContext => ({ warehouse, state: pool, stateSchema: STATE_SCHEMA, timezone: config.main.timezone, flows });
 
   const chdbDir = await mkdtemp(join(tmpdir(), 'plumbline-bench-chdb-'));
-  const connection = await openEmbedded({ dataDir: chdbDir, timeoutSeconds: settings.statement_timeout });
+  const connection = await openEmbedded({ dataDir: chdbDir, timeoutSeconds: settings.statementTimeoutSeconds });
   try {
     const t0 = performance.now();
     const copied = await copyEventsFromPostgres(connection, { url: options.url, table: data.tables.h30 }, CLICKHOUSE_TABLE);

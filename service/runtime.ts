@@ -1,7 +1,7 @@
 import { join } from 'node:path';
 import pg from 'pg';
 import type { FlowDefinition } from '../checks/types.js';
-import { toFlowDefinition, toWarehouseMapping } from './config/definitions.js';
+import { toFlowDefinition, toWarehouseMapping, toWarehouseSettings } from './config/definitions.js';
 import { resolveReference, type LoadedConfig } from './config/load.js';
 import { startEmbeddedPostgres, type EmbeddedServer } from './db/embedded.js';
 import { migrate } from './db/migrate.js';
@@ -44,11 +44,11 @@ export const DEFAULT_EMBEDDED_DIR = join('.plumbline', 'embedded');
 export async function openRuntime(config: LoadedConfig, options: RuntimeOptions = {}): Promise<Runtime> {
   const log = options.log ?? createLogger();
   const env = options.env ?? process.env;
-  const settings = { ...config.main.warehouse, engine: options.engine ?? config.main.warehouse.engine };
-  const warehouseUrl = options.forceEmbedded ? undefined : resolveReference(settings.url, env);
+  const engine = options.engine ?? config.main.warehouse.engine;
+  const warehouseUrl = options.forceEmbedded ? undefined : resolveReference(config.main.warehouse.url, env);
   let stateUrl = options.forceEmbedded ? undefined : resolveReference(config.main.state.url, env);
   // The state is PostgreSQL: the warehouse's own server when that is PostgreSQL, else state.url, else an embedded one.
-  if (stateUrl === undefined && settings.engine === 'postgres') stateUrl = warehouseUrl;
+  if (stateUrl === undefined && engine === 'postgres') stateUrl = warehouseUrl;
   let embedded: EmbeddedServer | undefined;
   if (stateUrl === undefined) {
     const dataDir = options.embeddedDir ?? DEFAULT_EMBEDDED_DIR;
@@ -72,8 +72,9 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
   };
   watch(state);
   const mapping = toWarehouseMapping(config.main);
+  const settings = toWarehouseSettings(config.main);
   let warehouse: OpenWarehouse;
-  if (settings.engine === 'clickhouse') {
+  if (engine === 'clickhouse') {
     warehouse = await openClickHouseWarehouse(warehouseUrl, mapping, settings);
   } else {
     const pool = (warehouseUrl ?? stateUrl) === stateUrl ? state : new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });

@@ -1,5 +1,6 @@
 import type { CalendarDay, FlowDefinition, ParamContract } from '../../checks/types.js';
 import type { WarehouseMapping } from '../warehouse/mapping.js';
+import type { WarehouseSettings } from '../warehouse/open.js';
 import type { CalendarEntry, FlowConfig, MainConfig } from './schema.js';
 
 /** The flow as the checks and the rollup see it. */
@@ -18,6 +19,11 @@ export function toFlowDefinition(flow: FlowConfig): FlowDefinition {
     events: [...new Set([...stepEvents, ...flow.watch, ...Object.keys(flow.events)])],
     contracts,
   };
+}
+
+export function toWarehouseSettings(main: MainConfig): WarehouseSettings {
+  const { work_mem, statement_timeout, tls_ca_file, embedded_dir } = main.warehouse;
+  return { workMem: work_mem, statementTimeoutSeconds: statement_timeout, embeddedDir: embedded_dir, ...(tls_ca_file ? { tlsCaFile: tls_ca_file } : {}) };
 }
 
 export function toWarehouseMapping(main: MainConfig): WarehouseMapping {

@@ -4,7 +4,6 @@
  * everything that reads the warehouse sees only `Warehouse`.
  */
 import type pg from 'pg';
-import type { MainConfig } from '../config/schema.js';
 import { ClickHouseWarehouse } from './clickhouse/index.js';
 import { openEmbedded } from './clickhouse/embedded.js';
 import { openServer } from './clickhouse/server.js';
@@ -13,16 +12,27 @@ import { PostgresWarehouse } from './postgres/index.js';
 
 export type OpenWarehouse = PostgresWarehouse | ClickHouseWarehouse;
 
-export function openPostgresWarehouse(pool: pg.Pool, mapping: WarehouseMapping, settings: MainConfig['warehouse']): PostgresWarehouse {
-  return new PostgresWarehouse(pool, mapping, { workMem: settings.work_mem, statementTimeoutSeconds: settings.statement_timeout });
+/** The `warehouse` settings of plumbline.yaml that reach the engines. */
+export interface WarehouseSettings {
+  /** PostgreSQL only. */
+  workMem: string;
+  statementTimeoutSeconds: number;
+  /** ClickHouse over https with a private certificate authority. */
+  tlsCaFile?: string;
+  /** ClickHouse without a URL: the in-process engine's data directory. */
+  embeddedDir: string;
 }
 
-/** A ClickHouse server when `url` is given (already resolved), the in-process engine (chdb) in `embedded_dir` otherwise. */
-export async function openClickHouseWarehouse(url: string | undefined, mapping: WarehouseMapping, settings: MainConfig['warehouse']): Promise<ClickHouseWarehouse> {
-  const timeoutSeconds = settings.statement_timeout;
+export function openPostgresWarehouse(pool: pg.Pool, mapping: WarehouseMapping, settings: WarehouseSettings): PostgresWarehouse {
+  return new PostgresWarehouse(pool, mapping, { workMem: settings.workMem, statementTimeoutSeconds: settings.statementTimeoutSeconds });
+}
+
+/** A ClickHouse server when `url` is given (already resolved), the in-process engine (chdb) in `embeddedDir` otherwise. */
+export async function openClickHouseWarehouse(url: string | undefined, mapping: WarehouseMapping, settings: WarehouseSettings): Promise<ClickHouseWarehouse> {
+  const timeoutSeconds = settings.statementTimeoutSeconds;
   const connection =
     url === undefined
-      ? await openEmbedded({ dataDir: settings.embedded_dir, timeoutSeconds })
-      : openServer({ url, timeoutSeconds, ...(settings.tls_ca_file ? { caFile: settings.tls_ca_file } : {}) });
+      ? await openEmbedded({ dataDir: settings.embeddedDir, timeoutSeconds })
+      : openServer({ url, timeoutSeconds, ...(settings.tlsCaFile ? { caFile: settings.tlsCaFile } : {}) });
   return new ClickHouseWarehouse(connection, mapping);
 }
