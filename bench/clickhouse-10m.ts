@@ -59,8 +59,8 @@ async function child(options: { url: string; stateSchema: string; dayTable: stri
     await connection.command({ text: 'create table bench.events as bench.day', params: {} });
     await connection.command({
       text: `insert into bench.events
-select occurred_at, event_name, concat(user_id, '~', toString(number)), concat(device_id, '~', toString(number)), platform, app_version, props, country, channel
-from ${quoteQualified('bench.day')}, numbers({copies:UInt32})`,
+select occurred_at, event_name, concat(user_id, '~', toString(copy.number)), concat(device_id, '~', toString(copy.number)), platform, app_version, props, country, channel
+from ${quoteQualified('bench.day')} as day, numbers({copies:UInt32}) as copy`,
       params: { copies: COPIES },
     });
     await connection.command({ text: 'drop table bench.day', params: {} });
