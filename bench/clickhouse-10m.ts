@@ -31,6 +31,7 @@ const ROUNDS = 2;
 interface ChildResult {
   events: number;
   seconds: number[];
+  cpuSeconds: number[];
   peakRssMb: number;
 }
 
@@ -45,6 +46,7 @@ export async function benchClickHouse10m(options: { url: string; stateSchema: st
   return {
     rollup_clickhouse_10m_s: Number(sorted[Math.floor(sorted.length / 2)]!.toFixed(2)),
     rollup_clickhouse_10m_runs_s: result.seconds.map((s) => s.toFixed(2)).join(', '),
+    rollup_clickhouse_10m_cpu_s: result.cpuSeconds.map((s) => s.toFixed(2)).join(', '),
     rollup_clickhouse_10m_events: result.events,
     rollup_clickhouse_10m_peak_rss_mb: result.peakRssMb,
   };
@@ -70,12 +72,18 @@ from ${quoteQualified('bench.day')} as day, numbers({copies:UInt32}) as copy`,
     const range = await warehouse.dayBounds(BENCH_DAY, ctx.timezone);
     const events = (await warehouse.hourCounts(range)).reduce((sum, row) => sum + row.events, 0);
     const seconds: number[] = [];
+    const cpuSeconds: number[] = [];
     for (let round = 0; round <= ROUNDS; round++) {
       const t0 = performance.now();
+      const cpu = process.cpuUsage();
       await rollupDay(ctx, BENCH_DAY);
-      if (round > 0) seconds.push((performance.now() - t0) / 1000);
+      const used = process.cpuUsage(cpu);
+      if (round > 0) {
+        seconds.push((performance.now() - t0) / 1000);
+        cpuSeconds.push((used.user + used.system) / 1e6);
+      }
     }
-    return { events, seconds, peakRssMb: Math.round(process.resourceUsage().maxRSS / 1024) };
+    return { events, seconds, cpuSeconds, peakRssMb: Math.round(process.resourceUsage().maxRSS / 1024) };
   } finally {
     await connection.close();
     await state.end();
