@@ -15,7 +15,7 @@ import type * as Chdb from 'chdb';
 import { OUTPUT_SETTINGS, parseRows, type ClickHouseConnection } from './connection.js';
 import type { ChQuery } from './sql.js';
 
-export const CHDB_INSTALL_HINT = 'the embedded ClickHouse engine needs the chdb package (about 540 MB, Linux and macOS): run `npm install chdb` in the plumbline folder';
+const CHDB_INSTALL_HINT = 'the embedded ClickHouse engine needs the chdb package (about 540 MB, Linux and macOS): run `npm install chdb` in the plumbline folder';
 
 // Types only: erased at run time, so a missing chdb fails at the dynamic import below, with the hint.
 type ChdbSession = InstanceType<typeof Chdb.Session>;
