@@ -5,10 +5,11 @@
  * matching). Each statement is put together from one builder per CTE.
  *
  * Per person and platform, the step events become one array of times per
- * step and the list of entry candidates; the path is then read off those
- * arrays: the entry is the earliest candidate (lowest step, then lowest
- * version and dimension values, byte order, on ties), and each following step
- * the earliest time at or after the previous step's and within the window.
+ * step and the entry (earliest candidate, then lowest step, then the lowest
+ * version and dimension values among the tied, byte order), through
+ * streaming `argMin` aggregates; the path is then read off the arrays, each
+ * step the earliest time at or after the previous step's and within the
+ * window.
  * `windowFunnel` is not used: it answers "how far did the person get" over
  * its own choice of chains, not the earliest-reach times this definition
  * needs for the step times, and it has no entry at any step.
