@@ -95,7 +95,9 @@ function renderSlack(input: ChatInput): SlackMessage {
     const what = event === 'opened' ? 'opened' : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
     fallback = `${severityLabel(incident.severity)} ${what}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*${incident.severity}* ${SEVERITY_MARK[incident.severity]} · ${what} · ${flow} · ${where}\n*${headline}*`));
-    blocks.push(section(ownersLine(incident.owners, (owner) => ownerText(owner, input.mentions[owner]))));
+    // Only a page calls someone: a warn names its owners without notifying them.
+    const show = incident.severity === 'page' ? (owner: string) => ownerText(owner, input.mentions[owner]) : (owner: string) => chatText(owner, 80);
+    blocks.push(section(ownersLine(incident.owners, show)));
     const fields = [
       `*Since*\n${incident.since} (${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'})`,
       `*Where*\n${where}`,

@@ -147,12 +147,20 @@ describe('chat message', () => {
   }
 
   it('keeps ordinary text, emoji and the owner mention readable', () => {
-    const { message } = render({ day: '2026-11-18', title: 'Zone picker 🚇 silent on android 7.4.0' });
+    const { message } = render({ day: '2026-11-18', severity: 'page', title: 'Zone picker 🚇 silent on android 7.4.0' });
     const all = texts(message).map((t) => t.text).join('\n');
     expect(all).toContain('Zone picker 🚇 silent on android 7.4.0');
     expect(all).toContain(`Owner: ${MENTION}`);
     expect(all).toContain('*Likely cause:* app release (confidence 82%)');
     expect(all).toMatch(/\*Observed\* \(people\)\n0/);
+  });
+
+  it('mentions the owner on a page only: a warn names the owner without notifying (README, severities)', () => {
+    const page = JSON.stringify(render({ day: '2026-11-18', severity: 'page' }).message);
+    const warn = JSON.stringify(render({ day: '2026-11-18', severity: 'warn' }).message);
+    expect(page).toContain(JSON.stringify(MENTION).slice(1, -1));
+    expect(warn).not.toContain(JSON.stringify(MENTION).slice(1, -1));
+    expect(warn).toContain(`Owner: ${OWNER}`);
   });
 
   it('shows no parameter values when values are hidden', () => {

@@ -39,11 +39,11 @@ async function incidents() {
 }
 
 describe('applyIncidentDrafts', () => {
-  it('opens an incident with one chat message carrying the owner mention and the page link', async () => {
-    const changes = await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+  it('opens a paging incident with one chat message carrying the owner mention and the page link', async () => {
+    const changes = await day('2026-11-18', [draft({ day: '2026-11-18', severity: 'page' })]);
     const [incident] = await incidents();
     expect(changes.opened).toEqual([incident!.id]);
-    expect(incident).toMatchObject({ status: 'open', severity: 'warn', openedDay: '2026-11-18', lastSeenDay: '2026-11-18', daysSeen: 1, notifiedSeverity: 'warn' });
+    expect(incident).toMatchObject({ status: 'open', severity: 'page', openedDay: '2026-11-18', lastSeenDay: '2026-11-18', daysSeen: 1, notifiedSeverity: 'page' });
     expect(incident!.id).toMatch(/^monthly_pass-20261118-[0-9a-f]{8}$/);
     const messages = await outboxRows(db.pool, db.schema);
     expect(messages.map((m) => [m.incident_id, m.event, m.day, m.state])).toEqual([[incident!.id, 'opened', '2026-11-18', 'pending']]);
@@ -155,7 +155,7 @@ describe('applyIncidentDrafts', () => {
       );
     const all = () => listIncidents(db.pool, db.schema, { flows: [FLOW, SIGNUP.flow], from: '2000-01-01', to: '2100-01-01' });
 
-    it('is one incident and one message, listing the flows it holds back and mentioning their owners', async () => {
+    it('is one incident and one message, listing the flows it holds back and naming their owners', async () => {
       const changes = await both('2026-11-30', { delay: true, pass: 'not_ready', signup: 'not_ready' });
       const list = await all();
       expect(list).toHaveLength(1);
@@ -165,7 +165,9 @@ describe('applyIncidentDrafts', () => {
       expect(messages.map((m) => m.event)).toEqual(['opened']);
       const text = JSON.stringify(messages[0]!.payload);
       expect(text).toContain(`${SIGNUP.flow}, ${FLOW}`);
-      expect(text).toContain(`Owners: <!subteam^S0ACCOUNTS>, ${MENTION}`);
+      // A warn names the owners; only a page mentions them.
+      expect(text).toContain(`Owners: ${SIGNUP.owner}, ${OWNER}`);
+      expect(text).not.toContain(MENTION);
       // Both flows saw the same words: the message lists them once.
       expect(text.split('• freshness: events for 2026-11-30 from web stopped').length - 1).toBe(1);
       const detail = await loadIncident(db.pool, db.schema, list[0]!.id);
