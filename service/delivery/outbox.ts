@@ -2,7 +2,13 @@
  * The transactional outbox: messages are queued in the same transaction as the
  * incident change that causes them, then a sender claims, posts and
  * acknowledges them one by one. States: pending -> sending -> sent, or parked
- * after too many failures (until a person requeues it).
+ * after too many failures, or unconfirmed when a sender stopped between post
+ * and acknowledgement and the target may not deduplicate (both wait for a
+ * person to requeue them).
+ *
+ * Leases are read and set on database time, so replicas with drifting clocks
+ * agree on when a sender is presumed dead. Backoff and `Retry-After` pauses
+ * are on the sender's clock (injected in tests), as they are per message.
  */
 import type pg from 'pg';
 import { quoteIdent } from '../db/sql.js';
@@ -10,7 +16,15 @@ import type { Db } from '../incidents/store.js';
 import type { IncidentEvent } from '../incidents/types.js';
 import type { ChatPayload } from './chat.js';
 
-export type OutboxState = 'pending' | 'sending' | 'sent' | 'parked';
+/** Every state of an outbox message, in the order the CLI and the status page list them. */
+export const OUTBOX_STATES = ['pending', 'sending', 'sent', 'parked', 'unconfirmed'] as const;
+export type OutboxState = (typeof OUTBOX_STATES)[number];
+/** States that need a person: `plumbline outbox --retry ID` queues them again. */
+export const STUCK_STATES: readonly OutboxState[] = ['parked', 'unconfirmed'];
+
+/** Why a message became unconfirmed (shown with it). */
+export const UNCONFIRMED_ERROR =
+  'the sender stopped between posting and recording the answer; the message may have been shown, so it is not posted again on its own';
 
 export interface OutboxMessage {
   id: number;
@@ -77,36 +91,70 @@ export async function withdrawPending(client: pg.ClientBase, schema: string, inc
 /**
  * Claims the oldest due chat message (several senders may run: `skip locked`
  * lets each take a different one). A message waits while an earlier message
- * of the same incident is unsent, so "resolved" never overtakes "opened". A
- * `sending` message whose lease has passed was left by a sender that died and
- * is claimed again, keeping its idempotency key. A message never tried is due
+ * of the same incident is unsent, so "resolved" never overtakes "opened", and
+ * while the channel is paused by a receiver's `Retry-After`. A `sending`
+ * message whose lease has passed (database time) was left by a sender that
+ * died: it is claimed again, keeping its idempotency key, only when
+ * `repostExpired` (the target deduplicates by that key); otherwise
+ * `settleExpiredLeases` has made it unconfirmed. A message never tried is due
  * at once, whatever clock queued it (replays queue with the replayed day's
  * clock). The attempt is counted here, before the post, so a crash mid-post
  * still counts.
  */
-export async function claimNext(pool: pg.Pool, schema: string, now: Date, leaseMs: number, runner: string): Promise<OutboxMessage | undefined> {
+export async function claimNext(
+  pool: pg.Pool,
+  schema: string,
+  now: Date,
+  leaseMs: number,
+  runner: string,
+  repostExpired = true,
+): Promise<OutboxMessage | undefined> {
   const s = quoteIdent(schema);
   const { rows } = await pool.query<OutboxMessage>({
     text: `with next as (
         select o.id from ${s}.outbox o
         where o.channel = 'chat'
-          and ((o.state = 'pending' and (o.attempts = 0 or o.next_attempt_at <= $1)) or (o.state = 'sending' and o.lease_until <= $1))
+          and ((o.state = 'pending' and (o.attempts = 0 or o.next_attempt_at <= $1)) or (o.state = 'sending' and $4 and o.lease_until <= now()))
           and not exists (
             select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending'))
+          and not exists (select 1 from ${s}.channel_pauses p where p.channel = o.channel and p.until > $1)
         order by o.id
         limit 1
         for update of o skip locked)
-      update ${s}.outbox o set state = 'sending', attempts = o.attempts + 1, lease_until = $2, claimed_by = $3
+      update ${s}.outbox o set state = 'sending', attempts = o.attempts + 1, lease_until = now() + make_interval(secs => $2), claimed_by = $3
       from next where o.id = next.id
       returning ${columns('o.')}`,
-    values: [now, new Date(now.getTime() + leaseMs), runner],
+    values: [now, leaseMs / 1000, runner, repostExpired],
   });
   return rows[0];
 }
 
+/** `sending` messages whose lease passed (database time) become unconfirmed; returns their ids. */
+export async function settleExpiredLeases(pool: pg.Pool, schema: string): Promise<number[]> {
+  const { rows } = await pool.query<{ id: number }>({
+    text: `update ${quoteIdent(schema)}.outbox set state = 'unconfirmed', lease_until = null, last_error = $1
+      where channel = 'chat' and state = 'sending' and lease_until <= now()
+      returning id::int as id`,
+    values: [UNCONFIRMED_ERROR],
+  });
+  return rows.map((row) => row.id);
+}
+
+/** Nothing is posted to the chat channel before `until` (a receiver's `Retry-After`); an existing later pause stays. */
+export async function pauseChannel(pool: pg.Pool, schema: string, until: Date, reason: string): Promise<void> {
+  await pool.query({
+    text: `insert into ${quoteIdent(schema)}.channel_pauses (channel, until, reason) values ('chat', $1, $2)
+      on conflict (channel) do update set until = greatest(channel_pauses.until, excluded.until),
+        reason = case when excluded.until > channel_pauses.until then excluded.reason else channel_pauses.reason end`,
+    values: [until, reason],
+  });
+}
+
+/** A late acknowledgement still counts when the message was meanwhile marked unconfirmed. */
 export async function markSent(pool: pg.Pool, schema: string, id: number, now: Date): Promise<void> {
   await pool.query({
-    text: `update ${quoteIdent(schema)}.outbox set state = 'sent', sent_at = $2, lease_until = null, last_error = null where id = $1 and state = 'sending'`,
+    text: `update ${quoteIdent(schema)}.outbox set state = 'sent', sent_at = $2, lease_until = null, last_error = null
+      where id = $1 and state in ('sending', 'unconfirmed')`,
     values: [id, now],
   });
 }
@@ -122,13 +170,21 @@ export async function markFailed(pool: pg.Pool, schema: string, id: number, erro
   });
 }
 
-/** When the next unsent chat message becomes claimable (leaving out those queued behind an earlier one), if any is left. */
+/**
+ * When the next unsent chat message becomes claimable (leaving out those
+ * queued behind an earlier one, and not before a channel pause ends), if any
+ * is left. A message another sender holds counts as due now: the caller polls
+ * until that sender records its answer.
+ */
 export async function nextDue(pool: pg.Pool, schema: string, now: Date): Promise<Date | undefined> {
   const s = quoteIdent(schema);
   const { rows } = await pool.query<{ due: Date | null }>({
-    text: `select min(case when o.state = 'sending' then o.lease_until when o.attempts = 0 then $1 else o.next_attempt_at end) as due
-      from ${s}.outbox o where o.channel = 'chat' and o.state in ('pending', 'sending')
-        and not exists (select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending'))`,
+    text: `with due as (
+        select min(case when o.state = 'sending' or o.attempts = 0 then $1 else o.next_attempt_at end) as at
+        from ${s}.outbox o where o.channel = 'chat' and o.state in ('pending', 'sending')
+          and not exists (select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending')))
+      select case when due.at is null then null else greatest(due.at, (select p.until from ${s}.channel_pauses p where p.channel = 'chat')) end as due
+      from due`,
     values: [now],
   });
   return rows[0]?.due ?? undefined;
@@ -146,16 +202,17 @@ export async function listOutbox(db: Db, schema: string, states: readonly Outbox
 /** Counts per state (the status page). */
 export async function outboxCounts(db: Db, schema: string): Promise<Record<OutboxState, number>> {
   const { rows } = await db.query<{ state: OutboxState; n: number }>(`select state, count(*)::int as n from ${quoteIdent(schema)}.outbox group by state`);
-  const counts: Record<OutboxState, number> = { pending: 0, sending: 0, sent: 0, parked: 0 };
+  const counts = Object.fromEntries(OUTBOX_STATES.map((state) => [state, 0])) as Record<OutboxState, number>;
   for (const row of rows) counts[row.state] = row.n;
   return counts;
 }
 
-/** Puts a parked message back in the queue with a fresh count of attempts; false when no parked message has that id. */
+/** Puts a parked or unconfirmed message back in the queue with a fresh count of attempts; false when no such message has that id. */
 export async function requeue(db: Db, schema: string, id: number, now: Date): Promise<boolean> {
   const { rowCount } = await db.query({
-    text: `update ${quoteIdent(schema)}.outbox set state = 'pending', attempts = 0, next_attempt_at = $2, parked_at = null where id = $1 and state = 'parked'`,
-    values: [id, now],
+    text: `update ${quoteIdent(schema)}.outbox set state = 'pending', attempts = 0, next_attempt_at = $2, parked_at = null
+      where id = $1 and state = any($3)`,
+    values: [id, now, STUCK_STATES],
   });
   return rowCount === 1;
 }

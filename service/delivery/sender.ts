@@ -3,19 +3,26 @@
  *
  * - Each message carries a stable key (`outbox.idempotency_key`), sent as the
  *   `Idempotency-Key` header (IETF httpapi draft "The Idempotency-Key HTTP
- *   Header Field"). The message is marked `sending` before the post and `sent`
- *   after it; a sender that dies in between leaves it `sending`, and once its
- *   lease passes the next sender posts it again with the same key, so a
- *   receiver that honours the header shows it once. The chat service's
- *   incoming webhooks do not promise to honour it: there, delivery is at least
- *   once, and a duplicate needs a crash in the second between post and
- *   acknowledgement.
+ *   Header Field"). The message is marked `sending` (with a lease on database
+ *   time) before the post and `sent` after it.
+ * - The answer is first noted in the sender's memory (`UnrecordedOutcomes`),
+ *   then written to the state database. If that write fails (the database
+ *   went away right after the post), the drain stops and the next drain of
+ *   the same process writes the noted answers before claiming anything, so a
+ *   message shown once is not posted again.
+ * - A sender that dies between post and acknowledgement leaves its message
+ *   `sending`. Once the lease passes, a target that honours the key
+ *   (`delivery.chat.honours_idempotency_key`) gets it again with the same key
+ *   and shows it once; any other target (Slack's incoming webhooks promise
+ *   nothing) does not: the message becomes `unconfirmed` for a person to
+ *   check, since a missed acknowledgement is better than a second post.
  * - Failures back off exponentially with full jitter: the wait before attempt
  *   n+1 is uniform in [0, min(cap, base * 2^(n-1))] (M. Brooker, "Exponential
  *   Backoff And Jitter", AWS Architecture Blog, 2015). A 429 answer's
  *   `Retry-After` (seconds or an HTTP date, RFC 9110 section 10.2.3) replaces
  *   the backoff and pauses the whole channel, since the limit is the
- *   receiver's, not the message's.
+ *   receiver's, not the message's. The pause is stored (`channel_pauses`), so
+ *   every replica honours it and no drain waits it out while holding a pass.
  * - After `delivery.max_attempts` failed attempts, or a refusal that retrying
  *   cannot fix (a 4xx other than 408 and 429: a revoked webhook, a payload it
  *   rejects), the message is parked with its last error for a person
@@ -34,7 +41,7 @@ import { IncomingWebhook, IncomingWebhookHTTPError, IncomingWebhookRequestError 
 import { resolveReference } from '../config/load.js';
 import type { MainConfig } from '../config/schema.js';
 import type { Logger } from '../log.js';
-import { claimNext, markFailed, markSent, nextDue, type OutboxMessage } from './outbox.js';
+import { claimNext, markFailed, markSent, nextDue, pauseChannel, settleExpiredLeases, type OutboxMessage } from './outbox.js';
 
 /** What the sender needs of the runtime. */
 export interface SenderRuntime {
@@ -61,6 +68,42 @@ export interface DrainOptions {
   env?: NodeJS.ProcessEnv;
   /** Name recorded on claimed messages. */
   runner?: string;
+  /** Answers not yet recorded in the state database; one per process, so the next drain records them (a fresh one by default). */
+  unrecorded?: UnrecordedOutcomes;
+}
+
+type Outcome = { sent: true } | { sent: false; error: string; next: { retryAt: Date } | { parkedAt: Date } };
+
+/**
+ * What posts returned that the state database has not recorded yet, keyed by
+ * outbox id. Written before the state write that can fail, replayed first by
+ * the next drain.
+ */
+export class UnrecordedOutcomes {
+  private readonly outcomes = new Map<number, Outcome>();
+
+  get size(): number {
+    return this.outcomes.size;
+  }
+
+  note(id: number, outcome: Outcome): void {
+    this.outcomes.set(id, outcome);
+  }
+
+  /** Records one noted outcome, then forgets it; a failed write leaves it noted and throws. */
+  async record(rt: SenderRuntime, id: number, now: Date): Promise<void> {
+    const outcome = this.outcomes.get(id);
+    if (!outcome) return;
+    if (outcome.sent) await markSent(rt.state, rt.stateSchema, id, now);
+    else await markFailed(rt.state, rt.stateSchema, id, outcome.error, outcome.next);
+    this.outcomes.delete(id);
+  }
+
+  async recordAll(rt: SenderRuntime, now: Date): Promise<number> {
+    const ids = [...this.outcomes.keys()];
+    for (const id of ids) await this.record(rt, id, now);
+    return ids.length;
+  }
 }
 
 export interface DrainResult {
@@ -119,14 +162,17 @@ export async function drainOutbox(rt: SenderRuntime, options: DrainOptions = {})
   const url = resolveReference(delivery.chat.webhook_url, options.env ?? process.env);
   const folder = url === undefined ? resolve(delivery.outbox_dir, 'chat') : undefined;
   const result: DrainResult = { sent: 0, failures: 0, parked: 0, files: [], ...(folder !== undefined ? { folder } : {}) };
-  let pausedUntil = 0;
+  const repostExpired = folder !== undefined || delivery.chat.honours_idempotency_key;
+  const unrecorded = options.unrecorded ?? new UnrecordedOutcomes();
+  const recorded = await unrecorded.recordAll(rt, now());
+  if (recorded > 0) rt.log.info({ recorded }, 'recorded answers of posts made before the state database went away');
   for (;;) {
-    const wait = pausedUntil - now().getTime();
-    if (wait > 0) {
-      await sleep(wait);
-      continue;
+    if (!repostExpired) {
+      for (const id of await settleExpiredLeases(rt.state, rt.stateSchema)) {
+        rt.log.error({ outbox: id }, 'chat message unconfirmed: its sender stopped between post and acknowledgement; see `plumbline outbox`');
+      }
     }
-    const message = await claimNext(rt.state, rt.stateSchema, now(), timeoutMs + LEASE_MARGIN_MS, runner);
+    const message = await claimNext(rt.state, rt.stateSchema, now(), timeoutMs + LEASE_MARGIN_MS, runner, repostExpired);
     if (!message) {
       if (options.until === 'idle') break;
       const due = await nextDue(rt.state, rt.stateSchema, now());
@@ -137,7 +183,8 @@ export async function drainOutbox(rt: SenderRuntime, options: DrainOptions = {})
     const context = { outbox: message.id, incident: message.incidentId, event: message.event, attempt: message.attempts };
     const outcome = folder !== undefined ? await writeToFolder(folder, message) : await post(url!, message, timeoutMs, now);
     if (outcome.ok) {
-      await markSent(rt.state, rt.stateSchema, message.id, now());
+      unrecorded.note(message.id, { sent: true });
+      await unrecorded.record(rt, message.id, now());
       result.sent++;
       if (outcome.file !== undefined) result.files.push(outcome.file);
       rt.log.info(context, 'chat message delivered');
@@ -145,14 +192,17 @@ export async function drainOutbox(rt: SenderRuntime, options: DrainOptions = {})
     }
     result.failures++;
     if (outcome.permanent || message.attempts >= delivery.max_attempts) {
-      await markFailed(rt.state, rt.stateSchema, message.id, outcome.error, { parkedAt: now() });
+      unrecorded.note(message.id, { sent: false, error: outcome.error, next: { parkedAt: now() } });
+      await unrecorded.record(rt, message.id, now());
       result.parked++;
       rt.log.error({ ...context, error: outcome.error }, 'chat message parked: see `plumbline outbox`');
       continue;
     }
     const delay = outcome.retryAfterMs ?? backoffDelay(message.attempts, random);
-    if (outcome.retryAfterMs !== undefined) pausedUntil = now().getTime() + outcome.retryAfterMs;
-    await markFailed(rt.state, rt.stateSchema, message.id, outcome.error, { retryAt: new Date(now().getTime() + delay) });
+    const retryAt = new Date(now().getTime() + delay);
+    unrecorded.note(message.id, { sent: false, error: outcome.error, next: { retryAt } });
+    if (outcome.retryAfterMs !== undefined) await pauseChannel(rt.state, rt.stateSchema, retryAt, outcome.error);
+    await unrecorded.record(rt, message.id, now());
     rt.log.warn({ ...context, error: outcome.error, retryInMs: delay }, 'chat message not delivered; will retry');
   }
   return result;

@@ -1,6 +1,6 @@
 import { buildDigests, sendDigests } from '../delivery/digest.js';
 import { defaultWeek } from '../delivery/digest-data.js';
-import { drainOutbox } from '../delivery/sender.js';
+import { UnrecordedOutcomes, drainOutbox } from '../delivery/sender.js';
 import type { Metrics } from '../metrics.js';
 import type { DeliverJob, DigestJob } from './runner.js';
 
@@ -9,13 +9,16 @@ import type { DeliverJob, DigestJob } from './runner.js';
  * (the senders themselves also serve the one-shot CLI, which has no /metrics).
  */
 
+/** Answers of posts this process made that the state database has not recorded yet: every drain of the process shares them. */
+const unrecorded = new UnrecordedOutcomes();
+
 /**
  * Sends the chat messages that are due. Safe on every replica at once: each
  * message is claimed with `for update skip locked` before it is posted.
  */
 export function chatDelivery(metrics: Metrics): DeliverJob {
   return async (rt, { log }) => {
-    const result = await drainOutbox(rt, { until: 'idle' });
+    const result = await drainOutbox(rt, { until: 'idle', unrecorded });
     metrics.deliveries.inc({ channel: 'chat', outcome: 'sent' }, result.sent);
     metrics.deliveries.inc({ channel: 'chat', outcome: 'failed' }, result.failures - result.parked);
     metrics.deliveries.inc({ channel: 'chat', outcome: 'parked' }, result.parked);

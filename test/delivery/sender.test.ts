@@ -15,6 +15,7 @@ import { afterEach, beforeEach, describe, expect, it, onTestFailed } from 'vites
 import { listOutbox, requeue } from '../../service/delivery/outbox.js';
 import { BACKOFF_BASE_MS, BACKOFF_CAP_MS, backoffDelay, drainOutbox, parseRetryAfter } from '../../service/delivery/sender.js';
 import { migrate } from '../../service/db/migrate.js';
+import { quoteIdent } from '../../service/db/sql.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
 import { clockFor, draft, judge, outboxRows } from '../incidents/fixtures.js';
 import { WEBHOOK_ENV, fakeClock, senderRuntime, startReceiver, testMain, type Receiver } from './fixtures.js';
@@ -151,7 +152,7 @@ describe('drainOutbox', () => {
     expect(earlier.now().toISOString()).toBe('2025-01-01T00:00:00.000Z');
   });
 
-  it('posts again with the same key after the sender is killed between post and acknowledgement', async () => {
+  it('posts again with the same key after the sender is killed between post and acknowledgement, to a target that deduplicates', async () => {
     await judge(db.pool, db.schema, '2026-11-18', [draft({ day: '2026-11-18' })]);
     const start = clockFor('2026-11-18', 1);
     receiver = await startReceiver();
@@ -178,11 +179,12 @@ describe('drainOutbox', () => {
     receiver.shown.set(first.key!, first.body);
 
     // While the dead sender's lease holds, nobody else takes the message.
-    const rt = senderRuntime(db.pool, db.schema);
+    const rt = senderRuntime(db.pool, db.schema, testMain({ delivery: { chat: { webhook_url: `\${${WEBHOOK_ENV}}`, honours_idempotency_key: true } } }));
     const early = await drainOutbox(rt, { now: () => new Date(start.getTime() + 1000), until: 'idle', env: { [WEBHOOK_ENV]: receiver.url } });
     expect(early.sent).toBe(0);
-    // After it, the restarted sender posts again with the same key.
-    const clock = fakeClock(new Date(start.getTime() + timeoutMs + 31_000));
+    // After it (leases are on database time: end it now), the restarted sender posts again with the same key.
+    await db.pool.query(`update ${quoteIdent(db.schema)}.outbox set lease_until = now() where state = 'sending'`);
+    const clock = fakeClock(new Date(start.getTime() + 1000));
     const result = await drainOutbox(rt, { ...clock, timeoutMs: 5000, env: { [WEBHOOK_ENV]: receiver.url } });
     expect(result.sent).toBe(1);
     expect(receiver.requests).toHaveLength(2);

@@ -1,4 +1,4 @@
-import { listOutbox, outboxCounts, requeue, type OutboxMessage, type OutboxState } from '../../delivery/outbox.js';
+import { OUTBOX_STATES, listOutbox, outboxCounts, requeue, type OutboxMessage } from '../../delivery/outbox.js';
 import { drainOutbox } from '../../delivery/sender.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
@@ -17,20 +17,20 @@ function describe(message: OutboxMessage): string {
       : message.state === 'sent'
         ? `sent ${message.sentAt?.toISOString() ?? ''}`
         : `next attempt ${message.nextAttemptAt.toISOString()}`;
-  const lines = [`#${message.id} ${message.state.padEnd(7)} attempts ${message.attempts}  ${when}`, `    ${message.summary}`];
+  const lines = [`#${message.id} ${message.state.padEnd(11)} attempts ${message.attempts}  ${when}`, `    ${message.summary}`];
   if (message.lastError !== null && message.state !== 'sent') lines.push(`    last error: ${message.lastError}`);
   return lines.join('\n');
 }
 
 /**
  * `plumbline outbox`: lists the chat messages not yet delivered (parked ones
- * with their last error), `--retry ID` queues a parked message again, `--send`
+ * with their last error), `--retry ID` queues a parked or unconfirmed message again, `--send`
  * delivers what is due now. Exit codes: 0 done; 4 `--send` parked a message;
- * 64 wrong usage (such as no parked message with that id).
+ * 64 wrong usage (such as no parked or unconfirmed message with that id).
  */
 export async function outboxCommand(rt: Runtime, options: OutboxCommandOptions): Promise<number> {
   if (options.retry !== undefined) {
-    if (!(await requeue(rt.state, rt.stateSchema, options.retry, new Date()))) throw new ExitError(EXIT.usage, `no parked message #${options.retry} (see \`plumbline outbox\`)`);
+    if (!(await requeue(rt.state, rt.stateSchema, options.retry, new Date()))) throw new ExitError(EXIT.usage, `no parked or unconfirmed message #${options.retry} (see \`plumbline outbox\`)`);
     console.log(`message #${options.retry} is queued again`);
   }
   let code: number = EXIT.ok;
@@ -41,15 +41,16 @@ export async function outboxCommand(rt: Runtime, options: OutboxCommandOptions):
     for (const file of result.files) console.log(`  ${file}`);
     if (result.parked > 0) code = EXIT.failed;
   }
-  const states: OutboxState[] = options.all ? ['pending', 'sending', 'parked', 'sent'] : ['pending', 'sending', 'parked'];
+  const states = options.all ? OUTBOX_STATES : OUTBOX_STATES.filter((state) => state !== 'sent');
   const messages = await listOutbox(rt.state, rt.stateSchema, states);
   const counts = await outboxCounts(rt.state, rt.stateSchema);
   if (options.json) {
     console.log(JSON.stringify({ counts, messages }, null, 2));
   } else {
-    console.log(`outbox: ${counts.pending} pending, ${counts.sending} sending, ${counts.parked} parked, ${counts.sent} sent`);
+    console.log(`outbox: ${OUTBOX_STATES.map((state) => `${counts[state]} ${state}`).join(', ')}`);
     for (const message of messages) console.log(describe(message));
     if (counts.parked > 0) console.log('parked messages wait for a person: fix the cause, then `plumbline outbox --retry ID`');
+    if (counts.unconfirmed > 0) console.log('unconfirmed messages may have been shown: look in the channel, then `plumbline outbox --retry ID` those missing');
   }
   return code;
 }
