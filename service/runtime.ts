@@ -15,8 +15,12 @@ export interface Runtime {
   config: LoadedConfig;
   /** The events table's engine; the rollup, probe and freshness code see it only as the `Warehouse` seam. */
   warehouse: OpenWarehouse;
-  /** plumbline's own schema, always PostgreSQL. */
+  /** plumbline's own schema, always PostgreSQL: the passes' reads and writes. */
   state: pg.Pool;
+  /** The same database for the runner's claims only: each claim holds one session for a whole pass. */
+  claims: pg.Pool;
+  /** The same database for HTTP (pages, /readyz, /metrics), so a busy pass never starves a probe. */
+  httpState: pg.Pool;
   stateSchema: string;
   mapping: WarehouseMapping;
   timezone: string;
@@ -25,6 +29,11 @@ export interface Runtime {
   /** Set when plumbline runs its own embedded PostgreSQL (demo, or no warehouse or state database configured). */
   embedded?: EmbeddedServer;
   close(): Promise<void>;
+}
+
+/** The runtime as HTTP handlers see it: their state reads go through the HTTP pool. */
+export function httpRuntime(rt: Runtime): Runtime {
+  return { ...rt, state: rt.httpState };
 }
 
 export interface RuntimeOptions {
@@ -36,8 +45,14 @@ export interface RuntimeOptions {
   embeddedDir?: string;
   log?: Logger;
   env?: NodeJS.ProcessEnv;
+  /** Connections of the state pool and of a PostgreSQL warehouse's pool, each (default 6). */
   poolSize?: number;
 }
+
+/** The daily and the digest claim, one session each. */
+const CLAIM_POOL_SIZE = 2;
+/** Pages and probes are short reads; a few connections serve them. */
+const HTTP_POOL_SIZE = 3;
 
 export const DEFAULT_EMBEDDED_DIR = join('.plumbline', 'embedded');
 
@@ -57,7 +72,10 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     stateUrl = embedded.url;
   }
   const max = options.poolSize ?? 6;
+  // Separate pools, even on one server: a rollup's parallel statements, a pass's claim and an HTTP probe never wait for each other's connections.
   const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
+  const claims = new pg.Pool({ connectionString: stateUrl, max: CLAIM_POOL_SIZE, application_name: 'plumbline-claim' });
+  const httpState = new pg.Pool({ connectionString: stateUrl, max: HTTP_POOL_SIZE, application_name: 'plumbline-http' });
   let closing = false;
   const watch = (pool: pg.Pool) => {
     pool.on('error', (error) => {
@@ -70,15 +88,15 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
       }),
     );
   };
-  watch(state);
+  for (const pool of [state, claims, httpState]) watch(pool);
   const mapping = toWarehouseMapping(config.main);
   const settings = toWarehouseSettings(config.main);
   let warehouse: OpenWarehouse;
   if (engine === 'clickhouse') {
     warehouse = await openClickHouseWarehouse(warehouseUrl, mapping, settings);
   } else {
-    const pool = (warehouseUrl ?? stateUrl) === stateUrl ? state : new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });
-    if (pool !== state) watch(pool);
+    const pool = new pg.Pool({ connectionString: warehouseUrl ?? stateUrl, max, application_name: 'plumbline-reader' });
+    watch(pool);
     warehouse = openPostgresWarehouse(pool, mapping, settings);
   }
   const stateSchema = config.main.state.schema;
@@ -88,6 +106,8 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     config,
     warehouse,
     state,
+    claims,
+    httpState,
     stateSchema,
     mapping,
     timezone: config.main.timezone,
@@ -96,9 +116,8 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     ...(embedded ? { embedded } : {}),
     async close() {
       closing = true;
-      // A PostgreSQL warehouse may share the state's pool; it is ended once.
-      if (warehouse.engine === 'clickhouse' || warehouse.pool !== state) await warehouse.close();
-      await state.end();
+      await warehouse.close();
+      await Promise.all([state.end(), claims.end(), httpState.end()]);
       await embedded?.stop();
     },
   };

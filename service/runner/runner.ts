@@ -179,7 +179,7 @@ export class Runner {
   }
 
   private async withClaim(job: RunnerJob, work: (claim: Claim) => Promise<PassReport>): Promise<PassReport> {
-    const claim = await Claim.acquire(this.rt.state, lockName(this.rt.stateSchema, job), {
+    const claim = await Claim.acquire(this.rt.claims, lockName(this.rt.stateSchema, job), {
       pollMs: this.options.claimPollMs ?? 5000,
       signal: this.stopping.signal,
       onWait: () => {

@@ -30,7 +30,7 @@ export async function runRange(rt: Runtime, from: string, to: string, options: {
 
 export async function runCommand(rt: Runtime, options: RunCommandOptions): Promise<number> {
   // The same claim as `serve`'s daily pass: a manual run waits for a pass in progress instead of judging beside it.
-  const claim = await Claim.acquire(rt.state, lockName(rt.stateSchema, 'daily'), {
+  const claim = await Claim.acquire(rt.claims, lockName(rt.stateSchema, 'daily'), {
     pollMs: 2000,
     signal: new AbortController().signal,
     onWait: () => console.error('plumbline: a daily pass is running elsewhere; waiting for it to finish'),

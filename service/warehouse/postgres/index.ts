@@ -22,7 +22,7 @@ export class PostgresWarehouse implements Warehouse {
   readonly engine = 'postgres' as const;
 
   constructor(
-    /** The warehouse's pool; the runtime may share it with the state, and then ends it once. */
+    /** The warehouse's pool, its own even when the state lives on the same server. */
     readonly pool: pg.Pool,
     readonly mapping: WarehouseMapping,
     readonly settings: PostgresSettings,
