@@ -113,7 +113,7 @@ program
   .description('run the daily schedule and serve health, readiness, metrics and the pages over HTTP')
   .option('--demo', 'serve the demo scenario from the embedded database, without a schedule')
   .option('--port <n>', 'listen on this port instead of http.port (0: any free port)', (value: string) => Number(value))
-  .option('--host <address>', 'interface to listen on (default: all; 127.0.0.1 with --demo)')
+  .option('--host <address>', 'interface to listen on (default: http.host, 127.0.0.1)')
   .option('--no-catch-up', 'skip the catch-up pass at start')
   .action(async (options) => {
     // Loaded on use: the scheduler, HTTP server and metrics are not needed by the one-shot commands.

@@ -16,7 +16,14 @@ const identifier = () => z.string().min(1).max(63);
 /** A value that must come from the environment: `${NAME}` or `${NAME:-fallback}`. */
 export const SECRET_REFERENCE = /^\$\{[A-Z_][A-Z0-9_]*(:-[^}]*)?\}$/;
 /** The keys read through `resolveReference`: the only places an `${ENV}` reference means anything. */
-export const REFERENCE_KEYS = ['warehouse.url', 'state.url', 'delivery.chat.webhook_url', 'delivery.email.smtp_url'] as const;
+export const REFERENCE_KEYS = [
+  'warehouse.url',
+  'state.url',
+  'delivery.chat.webhook_url',
+  'delivery.email.smtp_url',
+  'http.auth.token',
+  'http.auth.password',
+] as const;
 
 /** The chat payload formats plumbline can post (`service/delivery/chat.ts` renders each); the first is the default. */
 export const CHAT_FORMAT_IDS = ['slack'] as const;
@@ -173,8 +180,14 @@ export const mainSchema = z
             webhook_url: secretReference('webhook URLs are secrets')
               .optional()
               .describe('${ENV} reference to the chat webhook; without it payloads are written to outbox_dir.'),
+            honours_idempotency_key: z
+              .boolean()
+              .default(false)
+              .describe(
+                'The webhook shows a message once per Idempotency-Key header: a message whose sender stopped between post and acknowledgement is posted again. False (Slack incoming webhooks promise no such thing): it is marked unconfirmed instead, never posted twice.',
+              ),
           })
-          .default({ format: CHAT_FORMAT_IDS[0] }),
+          .default({ format: CHAT_FORMAT_IDS[0], honours_idempotency_key: false }),
         email: z
           .strictObject({
             smtp_url: secretReference('SMTP URLs carry credentials')
@@ -186,8 +199,12 @@ export const mainSchema = z
         outbox_dir: z.string().default('.plumbline/outbox').describe('Where payloads go when no webhook or SMTP server is configured (the demo).'),
         max_attempts: z.number().int().min(1).max(50).default(8).describe('Failed sends before a message is parked for a person to look at.'),
         hide_values: z.boolean().default(false).describe('Never show parameter values in messages, pages or digests.'),
+        hide_keys: z
+          .array(z.string().min(1))
+          .default([])
+          .describe('Parameter keys whose values are never kept, so never shown: `key` (on any event) or `event.key`. Their counts and types are still checked.'),
       })
-      .default({ chat: { format: CHAT_FORMAT_IDS[0] }, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false })
+      .default({ chat: { format: CHAT_FORMAT_IDS[0], honours_idempotency_key: false }, email: { from: 'plumbline <plumbline@localhost>' }, outbox_dir: '.plumbline/outbox', max_attempts: 8, hide_values: false, hide_keys: [] })
       .describe('Chat messages per incident and the weekly e-mail digest.'),
     schedule: z
       .strictObject({
@@ -200,9 +217,31 @@ export const mainSchema = z
     http: z
       .strictObject({
         port: z.number().int().min(1).max(65535).default(8080).describe('Port of the pages and the health endpoints.'),
+        host: z
+          .string()
+          .min(1)
+          .default('127.0.0.1')
+          .describe('Interface `plumbline serve` listens on: this machine only by default; the container image passes --host 0.0.0.0.'),
+        probe_port: z
+          .number()
+          .int()
+          .min(1)
+          .max(65535)
+          .optional()
+          .describe('Serve /healthz, /readyz and /metrics on this port (never behind auth) and only the pages on `port`.'),
+        auth: z
+          .strictObject({
+            token: secretReference('tokens are secrets').optional().describe('${ENV} reference to a bearer token the pages accept (Authorization: Bearer ...).'),
+            user: z.string().min(1).regex(/^[^:]+$/, { message: 'expected a user name without ":"' }).optional().describe('User name for HTTP basic auth (with password).'),
+            password: secretReference('passwords are secrets').optional().describe('${ENV} reference to the basic auth password (with user).'),
+          })
+          .refine((auth) => (auth.user === undefined) === (auth.password === undefined), { message: 'user and password go together' })
+          .refine((auth) => auth.token !== undefined || auth.user !== undefined, { message: 'expected token, or user and password' })
+          .optional()
+          .describe('Pages (and /metrics when it shares their port) ask for this; /healthz and /readyz never do.'),
         public_url: z.url().default('http://localhost:8080').describe('Base URL of the pages, used in chat links and the digest.'),
       })
-      .default({ port: 8080, public_url: 'http://localhost:8080' })
+      .default({ port: 8080, host: '127.0.0.1', public_url: 'http://localhost:8080' })
       .describe('The pages and the health endpoints.'),
   })
   .meta({ title: 'plumbline.yaml', description: 'plumbline: warehouse mapping, timezone, owners, delivery and schedule.' });

@@ -1,4 +1,5 @@
 import type pg from 'pg';
+import { describeDatabaseError } from '../db/errors.js';
 import { lastSuccessQuery } from '../runner/queries.js';
 import type { AppContext, RouteModule, ServeStatus } from './app.js';
 import { json, text } from './router.js';
@@ -33,7 +34,7 @@ export async function readiness(state: pg.Pool, schema: string, status: ServeSta
     daily = rows.find((row) => row.job === 'daily');
     database = { ok: true, detail: 'state database reachable' };
   } catch (error) {
-    database = { ok: false, detail: `state database unreachable: ${(error as Error).message}` };
+    database = { ok: false, detail: `state database unreachable: ${describeDatabaseError(error)}` };
   } finally {
     clearTimeout(timer);
   }

@@ -3,6 +3,7 @@ import type { AddressInfo } from 'node:net';
 import { escapeHtml } from '../delivery/text.js';
 import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
+import { OPEN_PATHS, type PageGuard } from './auth.js';
 import { html, type HttpResponse, type Router } from './router.js';
 
 export interface HttpServerOptions {
@@ -12,6 +13,8 @@ export interface HttpServerOptions {
   host: string;
   log: Logger;
   metrics?: Metrics;
+  /** Credentials the pages ask for (all but OPEN_PATHS); none: open to whoever reaches the port. */
+  guard?: PageGuard;
 }
 
 export interface HttpServer {
@@ -71,7 +74,10 @@ async function handle(options: HttpServerOptions, counters: Metrics, request: In
   const match = options.router.match(method, url.pathname);
   let route = 'unmatched';
   let result: HttpResponse;
-  if (match.kind === 'found') {
+  if (options.guard && !OPEN_PATHS.has(url.pathname) && !options.guard.allows(request.headers)) {
+    route = 'unauthorised';
+    result = { status: 401, headers: { 'www-authenticate': options.guard.challenge, 'content-type': 'text/plain; charset=utf-8' }, body: 'credentials required\n' };
+  } else if (match.kind === 'found') {
     route = match.route;
     try {
       result = await match.handler({ method, path: url.pathname, params: match.params, query: url.searchParams, headers: request.headers, route, raw: request });

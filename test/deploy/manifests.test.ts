@@ -121,7 +121,7 @@ describe('deploy/Dockerfile', () => {
     expect(inFinal('USER')).toEqual(['node']);
     expect(inFinal('RUN').some((run) => run.includes('npm ci --omit=dev'))).toBe(true);
     expect(inFinal('RUN').some((run) => run.includes('fonts-dejavu-core'))).toBe(true);
-    expect(inFinal('CMD')).toEqual(['["node", "bin/plumbline.js", "serve"]']);
+    expect(inFinal('CMD')).toEqual(['["node", "bin/plumbline.js", "serve", "--host", "0.0.0.0"]']);
   });
 
   it('exposes the configured port and checks health on it', () => {

@@ -2,7 +2,10 @@ import { quoteIdent } from '../../db/sql.js';
 import { prepareDemo } from '../../demo/prepare.js';
 import { DEMO_TO } from '../../demo/scenario.js';
 import { parseDuration } from '../../config/units.js';
-import { buildRouter, type ServeStatus } from '../../http/app.js';
+import { buildRouter, type RouteModule, type ServeStatus } from '../../http/app.js';
+import { pageGuard, type PageGuard } from '../../http/auth.js';
+import { healthRoutes } from '../../http/health.js';
+import { metricsRoutes } from '../../http/metrics-route.js';
 import { routeModules } from '../../http/routes.js';
 import { startHttpServer, type HttpServer } from '../../http/server.js';
 import { createLogger, type Logger } from '../../log.js';
@@ -10,7 +13,7 @@ import { metrics } from '../../metrics.js';
 import { chatDelivery, weeklyDigest } from '../../runner/jobs.js';
 import { Runner } from '../../runner/runner.js';
 import { stopScheduledWork } from '../../runner/shutdown.js';
-import type { Runtime } from '../../runtime.js';
+import { httpRuntime, type Runtime } from '../../runtime.js';
 import { Scheduler } from '../../scheduler/scheduler.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { withRuntime } from '../with-runtime.js';
@@ -20,7 +23,7 @@ export interface ServeCommandOptions {
   demo?: boolean;
   /** Overrides `http.port` (0: any free port). */
   port?: number;
-  /** Interface to listen on; all of them by default, loopback only for the demo. */
+  /** Interface to listen on; `http.host` (this machine only) by default. */
   host?: string;
   /** False (`--no-catch-up`): skip the pass at start, wait for the first scheduled tick. */
   catchUp?: boolean;
@@ -62,10 +65,10 @@ export async function serveCommand(dir: string, options: ServeCommandOptions, en
     throw new ExitError(EXIT.usage, '--port expects a port number from 0 to 65535');
   }
   const log = createLogger({ level: env.PLUMBLINE_LOG_LEVEL ?? 'info' });
-  return await withRuntime(dir, (rt) => serve(rt, options, settings, log), { log, forceEmbedded: options.demo === true, ownSignals: true });
+  return await withRuntime(dir, (rt) => serve(rt, options, settings, log, env), { log, forceEmbedded: options.demo === true, ownSignals: true });
 }
 
-async function serve(rt: Runtime, options: ServeCommandOptions, settings: ServeEnvironment, log: Logger): Promise<number> {
+async function serve(rt: Runtime, options: ServeCommandOptions, settings: ServeEnvironment, log: Logger, env: NodeJS.ProcessEnv): Promise<number> {
   const demo = options.demo === true;
   if (demo) await ensureDemo(rt, log);
   const catchUp = !demo && options.catchUp !== false;
@@ -75,17 +78,39 @@ async function serve(rt: Runtime, options: ServeCommandOptions, settings: ServeE
     startupDone: () => !catchUp || (runner?.firstDailyPassEnded ?? true),
     maxPassAgeSeconds: demo ? null : settings.readyMaxAgeSeconds,
   };
-  const router = buildRouter({ rt, metrics, status }, routeModules);
-  const host = options.host ?? (demo ? '127.0.0.1' : '0.0.0.0');
-  const port = options.port ?? rt.config.main.http.port;
-  let server: HttpServer;
+  const { http } = rt.config.main;
+  const host = options.host ?? http.host;
+  const port = options.port ?? http.port;
+  let guard: PageGuard | undefined;
   try {
-    server = await startHttpServer({ router, port, host, log });
+    guard = pageGuard(rt.config.main, env);
   } catch (error) {
-    throw new ExitError(EXIT.failed, `cannot listen on ${host}:${port}: ${(error as Error).message}`);
+    throw new ExitError(EXIT.config, (error as Error).message);
   }
-  console.log(`plumbline is serving at ${server.url}/ (health: /healthz, readiness: /readyz, metrics: /metrics)`);
-  log.info({ address: server.url, demo }, 'http server listening');
+  const context = { rt: httpRuntime(rt), metrics, status };
+  // With a probe port, the probes and /metrics live there alone, and the page port serves only pages.
+  const probeModules = [healthRoutes, metricsRoutes];
+  const servers: HttpServer[] = [];
+  const listen = async (modules: readonly RouteModule[], listenPort: number, withGuard: boolean) => {
+    try {
+      const server = await startHttpServer({ router: buildRouter(context, modules), port: listenPort, host, log, ...(withGuard && guard ? { guard } : {}) });
+      servers.push(server);
+      return server;
+    } catch (error) {
+      await Promise.all(servers.map((server) => server.close()));
+      throw new ExitError(EXIT.failed, `cannot listen on ${host}:${listenPort}: ${(error as Error).message}`);
+    }
+  };
+  if (http.probe_port === undefined) {
+    const server = await listen(routeModules, port, true);
+    console.log(`plumbline is serving at ${server.url}/ (health: /healthz, readiness: /readyz, metrics: /metrics)`);
+    log.info({ address: server.url, demo, auth: guard !== undefined }, 'http server listening');
+  } else {
+    const pages = await listen(routeModules.filter((module) => !probeModules.includes(module)), port, true);
+    const probes = await listen(probeModules, http.probe_port, false);
+    console.log(`plumbline is serving pages at ${pages.url}/ and health, readiness and metrics at ${probes.url}/healthz, /readyz, /metrics`);
+    log.info({ address: pages.url, probes: probes.url, demo, auth: guard !== undefined }, 'http servers listening');
+  }
 
   const schedulers = runner ? startSchedules(rt, runner, log, catchUp) : [];
   if (demo) log.info('demo: no schedule; the pages show the prepared scenario');
@@ -96,7 +121,7 @@ async function serve(rt: Runtime, options: ServeCommandOptions, settings: ServeE
   });
   log.info({ signal }, 'shutting down');
   const outcome = runner ? await stopScheduledWork(schedulers, runner, settings.graceMs, log) : 'finished';
-  await server.close();
+  await Promise.all(servers.map((server) => server.close()));
   if (outcome === 'abandoned') {
     // The abandoned run still holds connections, and closing the pools would wait for it:
     // exit now; PostgreSQL rolls back its open transactions when the connections drop.

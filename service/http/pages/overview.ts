@@ -6,7 +6,8 @@
 import { formatCount } from '../../../checks/messages.js';
 import { addDays } from '../../../checks/time.js';
 import type { Day } from '../../../checks/types.js';
-import { listOutbox, outboxCounts, type OutboxMessage, type OutboxState } from '../../delivery/outbox.js';
+import { scrubDatabaseText } from '../../db/errors.js';
+import { OUTBOX_STATES, STUCK_STATES, listOutbox, outboxCounts, type OutboxMessage, type OutboxState } from '../../delivery/outbox.js';
 import { causeWords, presentIncident, whereText } from '../../delivery/present.js';
 import { loadValuePolicy, paramKeysOf } from '../../delivery/privacy.js';
 import { escapeHtml } from '../../delivery/text.js';
@@ -81,7 +82,7 @@ export async function loadOverview(ctx: PagesContext): Promise<Overview> {
   const { rows: failures } = await db.query<RunRow>(recentRunsQuery(schema, FAILURES_SHOWN, true));
   const [counts, parked, waiting] = await Promise.all([
     outboxCounts(db, schema),
-    listOutbox(db, schema, ['parked'], OUTBOX_SHOWN),
+    listOutbox(db, schema, STUCK_STATES, OUTBOX_SHOWN),
     listOutbox(db, schema, ['pending', 'sending'], OUTBOX_SHOWN),
   ]);
   const titles = new Map(ctx.rt.config.flows.map(({ config }) => [config.flow, config.title]));
@@ -189,7 +190,7 @@ function runsTable(runs: RunRow[], caption: string, timezone: string): string {
         escapeHtml(run.status),
         escapeHtml(formatInstant(run.startedAt, timezone)),
         run.seconds === null ? '<span class="muted">running</span>' : escapeHtml(formatSeconds(run.seconds)),
-        clientText(run.error, SENTENCE_MAX),
+        clientText(run.error === null ? null : scrubDatabaseText(run.error), SENTENCE_MAX),
       ],
     })),
   });
@@ -248,15 +249,15 @@ function outboxSection(o: Overview): string {
   ];
   const parts = [
     `<h2 id="outbox">Chat messages</h2>`,
-    `<p>Parked messages wait for a person: fix the cause (the last error says what went wrong), then queue each again with <code>plumbline outbox --retry ID</code>.</p>`,
+    `<p>Parked and unconfirmed messages wait for a person: fix the cause (the last error says what went wrong), then queue each again with <code>plumbline outbox --retry ID</code>. An unconfirmed message may already have been shown: look in the channel first.</p>`,
     dataTable({
       caption: 'Messages in the outbox by state.',
       columns: [{ label: 'state' }, { label: 'messages', numeric: true }],
-      rows: (['pending', 'sending', 'sent', 'parked'] as const).map((state) => ({ cells: [escapeHtml(state), escapeHtml(formatCount(counts[state]))] })),
+      rows: OUTBOX_STATES.map((state) => ({ cells: [escapeHtml(state), escapeHtml(formatCount(counts[state]))] })),
     }),
-    `<h3 id="parked">Parked (${counts.parked})</h3>`,
+    `<h3 id="parked">Parked or unconfirmed (${counts.parked + counts.unconfirmed})</h3>`,
     parked.length === 0
-      ? none('No parked messages.')
+      ? none('No parked or unconfirmed messages.')
       : dataTable({
           caption: `Messages that failed too often or were refused for good${counts.parked > parked.length ? ` (the oldest ${parked.length} shown)` : ''}.`,
           columns: columns('parked at'),
