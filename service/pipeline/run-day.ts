@@ -26,7 +26,7 @@ export interface RunOptions {
 }
 
 export function rollupContext(rt: Runtime): RollupContext {
-  return { warehouse: rt.warehouse, state: rt.state, stateSchema: rt.stateSchema, timezone: rt.timezone, flows: rt.flows };
+  return { warehouse: rt.warehouse, state: rt.state, stateSchema: rt.stateSchema, timezone: rt.timezone, flows: rt.flows, hiddenKeys: rt.config.main.delivery.hide_keys };
 }
 
 /** Rolls up a range of days, two at a time (one per core of a small machine). */

@@ -13,6 +13,7 @@ import {
 } from '../state/rollups.js';
 import type { DayRange, FunnelRow, HourCountRow, Warehouse } from '../warehouse/engine.js';
 import { LOW_CARDINALITY } from '../warehouse/mapping.js';
+import { guardProfiles } from './value-guard.js';
 
 export interface RollupContext {
   /** The team's events, through the warehouse seam (any engine). */
@@ -21,6 +22,8 @@ export interface RollupContext {
   stateSchema: string;
   timezone: string;
   flows: FlowDefinition[];
+  /** `delivery.hide_keys`: parameter keys whose values are never kept. */
+  hiddenKeys?: readonly string[];
 }
 
 export interface RollupResult {
@@ -77,7 +80,7 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   const [counts, hours, params, flows] = await Promise.all([
     timed('counts', () => warehouse.eventCounts(range)),
     timed('status', () => warehouse.hourCounts(range)),
-    timed('params', () => warehouse.paramProfiles(range, watchedEvents(ctx.flows), untracked)),
+    timed('params', async () => guardProfiles(await warehouse.paramProfiles(range, watchedEvents(ctx.flows), untracked), ctx.hiddenKeys ?? [])),
     Promise.all(ctx.flows.map((flow) => timed(`flow ${flow.id}`, () => warehouse.flow(flow, range)))),
   ]);
 
