@@ -29,7 +29,8 @@ export function chatDelivery(metrics: Metrics): DeliverJob {
 /**
  * The weekly digest of the last full week judged, for every owner. A digest
  * already sent for (week, owner) is not sent again (digest_sends); one that
- * failed fails the pass, so it is logged and recorded, and can be sent by hand.
+ * failed fails the pass, so it is logged and recorded, and the runner tries
+ * the slot again with backoff (or it can be sent by hand).
  */
 export function weeklyDigest(metrics: Metrics): DigestJob {
   return async (rt, { now, log }) => {

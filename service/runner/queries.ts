@@ -91,9 +91,12 @@ export function abandonPassQuery(schema: string, id: string, runner: string, rea
   };
 }
 
-export function digestDoneQuery(schema: string, slot: string): Query {
+/** A digest slot: whether a pass sent it, how many passes failed, and how long ago (database time) the last one failed. */
+export function digestSlotQuery(schema: string, slot: string): Query {
   return {
-    text: `select exists (select 1 from ${quoteIdent(schema)}.runner_passes where job = 'digest' and slot = $1 and status = 'done') as done`,
+    text: `select coalesce(bool_or(status = 'done'), false) as done, count(*) filter (where status = 'failed')::int as failures,
+        extract(epoch from now() - max(finished_at) filter (where status = 'failed'))::float8 as "failedAgo"
+      from ${quoteIdent(schema)}.runner_passes where job = 'digest' and slot = $1`,
     values: [slot],
   };
 }

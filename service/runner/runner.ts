@@ -2,6 +2,7 @@ import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
 import { runDay, runnerName } from '../pipeline/run-day.js';
 import type { Runtime } from '../runtime.js';
+import { latestOccurrence } from '../scheduler/occurrence.js';
 import { localDay, passWindow, planPass, type PassPlan, type StoredVerdict } from '../scheduler/plan.js';
 import type { TickReason } from '../scheduler/scheduler.js';
 import { Claim } from './claim.js';
@@ -9,7 +10,7 @@ import {
   DATABASE_NOW,
   abandonDeadPassesQuery,
   abandonPassQuery,
-  digestDoneQuery,
+  digestSlotQuery,
   finishPassQuery,
   insertPassQuery,
   lastJudgedQuery,
@@ -27,6 +28,16 @@ export type DigestJob = (rt: Runtime, context: { now: Date; slot: string; log: L
 
 /** Sends what judging queued (the chat outbox); must be safe to run on several replicas at once. */
 export type DeliverJob = (rt: Runtime, context: { log: Logger }) => Promise<void>;
+
+/** First wait before a failed digest is tried again; it doubles per failure of the slot. */
+export const DIGEST_RETRY_BASE_MS = 5 * 60_000;
+/** Longest wait between two tries of a failed digest. */
+export const DIGEST_RETRY_CAP_MS = 4 * 3600_000;
+
+/** Wait after the `failures`-th failure of a digest slot: 5 min, 10 min, 20 min, ... up to 4 h. */
+export function digestRetryDelay(failures: number): number {
+  return Math.min(DIGEST_RETRY_CAP_MS, DIGEST_RETRY_BASE_MS * 2 ** Math.max(failures - 1, 0));
+}
 
 export interface RunnerOptions {
   metrics?: Metrics;
@@ -126,7 +137,14 @@ export class Runner {
     }
   }
 
-  /** Runs the digest job once for today's slot across replicas. */
+  /**
+   * Runs the digest job once per slot across replicas. A scheduled tick's slot
+   * is today; a `start` or `retry` tick looks for the latest slot of
+   * `schedule.weekly_digest` in the past week and runs it if no replica sent
+   * it yet (missed while down) and the backoff after its last failure has
+   * passed (a failed digest, say SMTP down, is retried within the hour
+   * rather than a week later).
+   */
   async digest(reason: TickReason): Promise<PassReport> {
     const digest = this.options.digest;
     if (!digest) throw new Error('no digest job was given to this runner');
@@ -134,20 +152,32 @@ export class Runner {
       return await this.withClaim('digest', async () => {
         const started = performance.now();
         const now = await this.now();
-        const slot = localDay(now, this.rt.timezone);
-        const { rows } = await this.rt.state.query<{ done: boolean }>(digestDoneQuery(this.rt.stateSchema, slot));
-        if (rows[0]!.done) {
-          this.metrics.claims.inc({ job: 'digest', outcome: 'already_done' });
-          this.log.info({ job: 'digest', slot }, 'the digest of this slot was already sent by a replica');
+        let slot = localDay(now, this.rt.timezone);
+        if (reason !== 'schedule') {
+          const due = latestOccurrence(this.rt.config.main.schedule.weekly_digest, this.rt.timezone, now, 7);
+          if (due === undefined) return { job: 'digest', status: 'skipped', days: [] };
+          slot = localDay(due, this.rt.timezone);
+        }
+        const { rows } = await this.rt.state.query<{ done: boolean; failures: number; failedAgo: number | null }>(digestSlotQuery(this.rt.stateSchema, slot));
+        const state = rows[0]!;
+        if (state.done) {
+          if (reason === 'schedule') {
+            this.metrics.claims.inc({ job: 'digest', outcome: 'already_done' });
+            this.log.info({ job: 'digest', slot }, 'the digest of this slot was already sent by a replica');
+          }
+          return { job: 'digest', status: 'skipped', days: [] };
+        }
+        if (reason !== 'schedule' && state.failures > 0 && state.failedAgo !== null && state.failedAgo * 1000 < digestRetryDelay(state.failures)) {
           return { job: 'digest', status: 'skipped', days: [] };
         }
         const pass = await this.openPass('digest', slot, reason, []);
         const log = this.log.child({ run: pass, job: 'digest', slot });
-        log.info({ reason }, 'digest started');
+        log.info({ reason, failures: state.failures }, reason === 'schedule' ? 'digest started' : 'digest of a missed or failed slot started');
         try {
           await digest(this.rt, { now, slot, log });
         } catch (error) {
           await this.closePass('digest', pass, 'failed', [], error as Error, started, log);
+          log.warn({ retryInSeconds: digestRetryDelay(state.failures + 1) / 1000 }, 'the digest will be tried again');
           return { job: 'digest', status: 'failed', passId: pass, days: [], error: (error as Error).message };
         }
         await this.closePass('digest', pass, 'done', [], undefined, started, log);

@@ -2,9 +2,9 @@ import { schedule as cronSchedule, type Logger as CronLogger } from 'node-cron';
 import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
 
-export type TickReason = 'start' | 'schedule';
+export type TickReason = 'start' | 'schedule' | 'retry';
 
-/** One request to run a job: from the cron schedule, or the catch-up at start. */
+/** One request to run a job: from the cron schedule, the catch-up at start, or a periodic retry of failed or missed work. */
 export interface Tick {
   job: string;
   reason: TickReason;

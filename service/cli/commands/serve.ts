@@ -50,6 +50,8 @@ export function readServeEnvironment(env: NodeJS.ProcessEnv): ServeEnvironment {
 
 /** Chat messages whose send failed are retried at the next of these ticks (the outbox keeps their backoff). */
 const DELIVERY_CRON = '* * * * *';
+/** How often a failed or missed digest is looked at (each try waits out its own backoff). */
+const DIGEST_RETRY_CRON = '*/5 * * * *';
 
 /**
  * `plumbline serve`: the daily pass on its cron schedule in the business
@@ -145,13 +147,18 @@ function startSchedules(rt: Runtime, runner: Runner, log: Logger, catchUp: boole
     jobs: [
       { name: 'daily', cron: daily_run, run: (tick) => runner.daily(tick.reason) },
       { name: 'digest', cron: weekly_digest, run: (tick) => runner.digest(tick.reason) },
+      // A failed digest is retried with backoff, and a slot missed while down is caught up (see Runner.digest).
+      { name: 'digest_retry', cron: DIGEST_RETRY_CRON, run: () => runner.digest('retry') },
     ],
   });
   const deliver = chatDelivery(metrics);
   const delivery = new Scheduler({ timezone: rt.timezone, log, jobs: [{ name: 'deliver', cron: DELIVERY_CRON, run: () => deliver(rt, { log }) }] });
   passes.start();
   delivery.start();
-  if (catchUp) passes.trigger('daily', 'start');
+  if (catchUp) {
+    passes.trigger('daily', 'start');
+    passes.trigger('digest', 'start');
+  }
   return [passes, delivery];
 }
 

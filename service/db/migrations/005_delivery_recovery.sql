@@ -17,3 +17,8 @@ create table channel_pauses (
   until timestamptz not null,
   reason text not null
 );
+
+-- A digest pass may also be a retry: after a failure (with backoff) or for a
+-- slot missed while no replica was running.
+alter table runner_passes drop constraint runner_passes_reason_check;
+alter table runner_passes add constraint runner_passes_reason_check check (reason in ('start', 'schedule', 'retry'));
