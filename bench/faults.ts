@@ -13,10 +13,11 @@
  */
 import { parseArgs } from 'node:util';
 import { chooseDevServer, safeUrl, type DevServer } from '../service/db/dev-server.js';
+import { faultsDb } from './faults/db.js';
 import { faultsKill } from './faults/kill.js';
 import type { FaultEnv, FaultSection } from './faults/section.js';
 
-const SECTIONS: FaultSection[] = [faultsKill];
+const SECTIONS: FaultSection[] = [faultsKill, faultsDb];
 
 const { values: args } = parseArgs({
   options: {
