@@ -273,7 +273,7 @@ const cases: Case[] = [
     name: 'a reference where references are not read',
     changes: { [MAIN]: replace('chat_mention: "<!subteam^S0GROWTH>"', 'chat_mention: "${GROWTH_MENTION}"') },
     problems: [
-      'config/plumbline.yaml:20:19 warning: owners.growth-analytics.chat_mention: expected plain text (${ENV} references are read only in warehouse.url, state.url, delivery.chat.webhook_url, delivery.email.smtp_url), found "${GROWTH_MENTION}", which would be used as written',
+      'config/plumbline.yaml:20:19 warning: owners.growth-analytics.chat_mention: expected plain text (${ENV} references are read only in warehouse.url, state.url, delivery.chat.webhook_url, delivery.email.smtp_url, http.auth.token, http.auth.password), found "${GROWTH_MENTION}", which would be used as written',
     ],
     code: EXIT.ok,
   },
