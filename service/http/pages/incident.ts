@@ -7,7 +7,8 @@
 import type { CauseLabel } from '../../../checks/causes/types.js';
 import { formatCount, formatNumber, formatPercent } from '../../../checks/messages.js';
 import type { ExcerptPoint, Finding } from '../../../checks/types.js';
-import { dailySeriesChart, renderSvg } from '../../charts/index.js';
+import { pageCharts } from '../../charts/cache.js';
+import { dailySeriesChart } from '../../charts/index.js';
 import { causeWords, formatMeasure, isFractionMetric, presentIncident, rankSymptoms, whereText, type IncidentPresentation } from '../../delivery/present.js';
 import { RESOLVED_MARK } from '../../delivery/marks.js';
 import { loadValuePolicy, paramKeysOf, valuesShown, type ValuePolicy } from '../../delivery/privacy.js';
@@ -277,7 +278,7 @@ async function symptomSection(symptom: Symptom, index: number, drawChart: boolea
   const flagged = points.filter((point) => point.flagged);
   if (points.length > 0 && drawChart) {
     const chart = dailySeriesChart(points, { title: `${finding.metric} of ${subject} on ${where}`, percent: isFractionMetric(finding.metric) });
-    const svg = await renderSvg(chart);
+    const svg = await pageCharts.svg(chart);
     // role="img" turns the drawing into one image for assistive technology; the tables below carry the numbers.
     parts.push(`<figure class="chart"><div role="img" aria-label="${escapeHtml(chart.alt)}">${svg}</div>
 <figcaption>Daily ${htmlText(finding.metric, 60)} (line), expected range (shaded band) and flagged days (red dots).</figcaption></figure>`);
