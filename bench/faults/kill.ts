@@ -4,16 +4,20 @@
  * the state must equal that of a backfill never interrupted, and no chat
  * message may be queued twice. The scenario is one small generated app
  * (service/scenarios), long enough for incidents to open, so the outbox is
- * not empty; the moments are uniform over a run's duration, from a fixed
- * seed. `FAULTS_KILLS` sets the number of kills (20 by default).
+ * not empty. A moment is drawn uniformly over the backfill's progress (days
+ * rolled up, then verdicts stored) from a fixed seed, so kills land in the
+ * rollup and in the judging alike, however loaded the machine. `FAULTS_KILLS`
+ * sets the number of kills (20 by default).
  */
 import { spawn } from 'node:child_process';
 import { randomBytes } from 'node:crypto';
 import { mkdtemp, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { setTimeout as sleep } from 'node:timers/promises';
 import pg from 'pg';
 import { addDays } from '../../checks/time.js';
+import { daysBetween } from '../../service/config/definitions.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { projectPath } from '../../service/paths.js';
 import { EVAL_URL_VARIABLE, writeScenarioConfig } from '../../service/scenarios/config.js';
@@ -35,8 +39,11 @@ interface Backfill {
   output: string;
 }
 
-/** `plumbline run --from --to` in a child process; killed with SIGKILL after `killAfterMs` when given. */
-function backfill(configDir: string, url: string, from: string, to: string, killAfterMs?: number): Promise<Backfill> {
+/**
+ * `plumbline run --from --to` in a child process; killed with SIGKILL once
+ * `killAt` resolves, when given.
+ */
+function backfill(configDir: string, url: string, from: string, to: string, killAt?: (alive: () => boolean) => Promise<void>): Promise<Backfill> {
   const started = performance.now();
   const child = spawn(process.execPath, ['--import', 'tsx', 'service/cli/main.ts', '--config', configDir, 'run', '--from', from, '--to', to, '--json'], {
     cwd: projectPath(),
@@ -45,13 +52,35 @@ function backfill(configDir: string, url: string, from: string, to: string, kill
   });
   let output = '';
   child.stderr.on('data', (chunk: Buffer) => (output = (output + chunk.toString('utf8')).slice(-4000)));
-  const timer = killAfterMs === undefined ? undefined : setTimeout(() => child.kill('SIGKILL'), killAfterMs);
-  return new Promise((resolve) => {
+  let exited = false;
+  const ended = new Promise<Backfill>((resolve) => {
     child.once('exit', (code, signal) => {
-      clearTimeout(timer);
+      exited = true;
       resolve({ ended: signal ?? code ?? -1, seconds: (performance.now() - started) / 1000, output });
     });
   });
+  void killAt?.(() => !exited).then(() => {
+    if (!exited) child.kill('SIGKILL');
+  });
+  return ended;
+}
+
+/**
+ * Resolves once the backfill's progress (days rolled up plus (flow, day)
+ * verdicts stored) reaches `target`, so kills spread over the rollup and the
+ * judging (where incidents and messages are written) whatever the machine's
+ * speed; then waits `jitterMs` more.
+ */
+async function progressReaches(pool: pg.Pool, stateSchema: string, target: number, jitterMs: number, alive: () => boolean): Promise<void> {
+  const s = quoteIdent(stateSchema);
+  while (alive()) {
+    const done = await pool
+      .query<{ n: number }>(`select (select count(*) from ${s}.runs where kind = 'rollup' and status = 'done') + (select count(*) from ${s}.judged_days) as n`)
+      .then(({ rows }) => Number(rows[0]!.n), () => 0);
+    if (done >= target) break;
+    await sleep(50);
+  }
+  await sleep(jitterMs);
 }
 
 /** Messages queued more than once for one (incident, event, day), or not queued by the reference at all. */
@@ -94,22 +123,22 @@ export const faultsKill: FaultSection = {
       let killedMidway = 0;
       let duplicates = 0;
       const differences: string[] = [];
-      // Moments are drawn over the fastest run seen so far, so nearly every kill lands before the end.
-      let fastest = uninterrupted.seconds;
+      // A moment is a point of progress (days rolled up plus verdicts stored), uniform over the whole backfill, plus up to 200 ms.
+      const units = daysBetween(from, to).length + reference.judged_days.rows;
       for (let trial = 1; trial <= KILLS; trial++) {
         await resetState();
-        const killAfterMs = Math.round(rng.uniform(0.03, 0.95) * fastest * 1000);
-        const killed = await backfill(dir, url, from, to, killAfterMs);
+        const target = Math.floor(rng.uniform(0, 1) * units);
+        const jitterMs = Math.round(rng.uniform(0, 200));
+        const killed = await backfill(dir, url, from, to, (alive) => progressReaches(pool, stateSchema, target, jitterMs, alive));
+        const moment = `at ${target}/${units} + ${jitterMs} ms (${killed.seconds.toFixed(1)} s)`;
         if (killed.ended === 'SIGKILL') killedMidway++;
-        else if (killed.ended === 0) fastest = Math.min(fastest, killed.seconds);
         const rerun = await backfill(dir, url, from, to);
-        if (rerun.ended === 0) fastest = Math.min(fastest, rerun.seconds);
         const snapshot: Snapshot | undefined = rerun.ended === 0 ? await snapshotState(pool, stateSchema) : undefined;
         const differing = snapshot ? differingTables(reference, snapshot) : ['(rerun failed)'];
         if (differing.length === 0) identical++;
-        else differences.push(`#${trial} after ${killAfterMs} ms: ${differing.join(', ')}`);
+        else differences.push(`#${trial} ${moment}: ${differing.join(', ')}`);
         duplicates += rerun.ended === 0 ? await extraMessages(pool, stateSchema, referenceKeys) : 0;
-        env.log(`faults_kill: #${trial} killed after ${killAfterMs} ms (${killed.ended}), rerun ${rerun.ended} in ${rerun.seconds.toFixed(1)} s: ${differing.length === 0 ? 'identical' : `differs in ${differing.join(', ')}`}`);
+        env.log(`faults_kill: #${trial} killed ${moment} (${killed.ended}), rerun ${rerun.ended} in ${rerun.seconds.toFixed(1)} s: ${differing.length === 0 ? 'identical' : `differs in ${differing.join(', ')}`}`);
       }
       if (differences.length > 0) env.log(`faults_kill: differences: ${differences.join('; ')}`);
       const figures: FaultFigure[] = [
