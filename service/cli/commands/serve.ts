@@ -10,6 +10,7 @@ import { metrics } from '../../metrics.js';
 import { chatDelivery, weeklyDigest } from '../../runner/jobs.js';
 import { Runner } from '../../runner/runner.js';
 import { stopScheduledWork } from '../../runner/shutdown.js';
+import { watchUnhandled } from '../../runner/unhandled.js';
 import type { Runtime } from '../../runtime.js';
 import { Scheduler } from '../../scheduler/scheduler.js';
 import { EXIT, ExitError } from '../exit-codes.js';
@@ -62,6 +63,7 @@ export async function serveCommand(dir: string, options: ServeCommandOptions, en
     throw new ExitError(EXIT.usage, '--port expects a port number from 0 to 65535');
   }
   const log = createLogger({ level: env.PLUMBLINE_LOG_LEVEL ?? 'info' });
+  watchUnhandled(process, log, metrics);
   return await withRuntime(dir, (rt) => serve(rt, options, settings, log), { log, forceEmbedded: options.demo === true, ownSignals: true });
 }
 
