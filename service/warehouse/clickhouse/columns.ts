@@ -45,9 +45,10 @@ export class Columns {
   get name(): string {
     return this.role('name');
   }
-  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. */
+  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. An empty or blank id is no id. */
   get person(): string {
-    return `coalesce(concat('u:', ${this.role('user')}), concat('d:', ${this.role('device')}))`;
+    const id = (role: 'user' | 'device', prefix: string) => `if(trimBoth(${this.role(role)}, ' \\t\\r\\n') != '', concat('${prefix}', ${this.role(role)}), NULL)`;
+    return `coalesce(${id('user', 'u:')}, ${id('device', 'd:')})`;
   }
   get version(): string {
     return `coalesce(${this.role('version')}, '')`;

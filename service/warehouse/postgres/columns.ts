@@ -21,9 +21,13 @@ export class Columns {
   get name(): string {
     return `(${this.col('name')}::text collate "C")`;
   }
-  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. */
+  /**
+   * A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide.
+   * An empty or blank id (spaces, tabs, line breaks) is no id: otherwise every device without a user would be one person.
+   */
   get person(): string {
-    return `(coalesce('u:' || ${this.col('user')}::text, 'd:' || ${this.col('device')}::text) collate "C")`;
+    const id = (role: 'user' | 'device', prefix: string) => `case when btrim(${this.col(role)}::text, E' \\t\\r\\n') <> '' then '${prefix}' || ${this.col(role)}::text end`;
+    return `(coalesce(${id('user', 'u:')}, ${id('device', 'd:')}) collate "C")`;
   }
   get version(): string {
     return `(coalesce(${this.col('version')}::text, '') collate "C")`;
