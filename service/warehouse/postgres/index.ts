@@ -29,8 +29,7 @@ export class PostgresWarehouse implements Warehouse {
   ) {}
 
   async dayBounds(day: string, timezone: string): Promise<DayRange> {
-    const { rows } = await this.pool.query<DayRange>(dayBoundsQuery(day, timezone));
-    return rows[0]!;
+    return (await this.read<DayRange>(dayBoundsQuery(day, timezone)))[0]!;
   }
 
   async eventCounts(range: DayRange) {
