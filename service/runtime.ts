@@ -5,6 +5,7 @@ import { toFlowDefinition, toWarehouseMapping, toWarehouseSettings } from './con
 import { resolveReference, type LoadedConfig } from './config/load.js';
 import { startEmbeddedPostgres, type EmbeddedServer } from './db/embedded.js';
 import { migrate } from './db/migrate.js';
+import { poolOptions } from './db/pool-options.js';
 import { createLogger, type Logger } from './log.js';
 import type { WarehouseMapping } from './warehouse/mapping.js';
 import type { WarehouseEngine } from './warehouse/engine.js';
@@ -57,7 +58,8 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     stateUrl = embedded.url;
   }
   const max = options.poolSize ?? 6;
-  const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
+  const limits = poolOptions(config.main.connections);
+  const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state', ...limits });
   let closing = false;
   const watch = (pool: pg.Pool) => {
     pool.on('error', (error) => {
@@ -77,7 +79,7 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
   if (engine === 'clickhouse') {
     warehouse = await openClickHouseWarehouse(warehouseUrl, mapping, settings);
   } else {
-    const pool = (warehouseUrl ?? stateUrl) === stateUrl ? state : new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader' });
+    const pool = (warehouseUrl ?? stateUrl) === stateUrl ? state : new pg.Pool({ connectionString: warehouseUrl, max, application_name: 'plumbline-reader', ...limits });
     if (pool !== state) watch(pool);
     warehouse = openPostgresWarehouse(pool, mapping, settings);
   }
