@@ -13,9 +13,10 @@
  */
 import { parseArgs } from 'node:util';
 import { chooseDevServer, safeUrl, type DevServer } from '../service/db/dev-server.js';
+import { httpFaults } from './faults/http.js';
 import type { FaultEnv, FaultSection } from './faults/section.js';
 
-const SECTIONS: FaultSection[] = [];
+const SECTIONS: FaultSection[] = [httpFaults];
 
 const { values: args } = parseArgs({
   options: {

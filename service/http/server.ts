@@ -1,5 +1,6 @@
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
+import type { Duplex } from 'node:stream';
 import { escapeHtml } from '../delivery/text.js';
 import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
@@ -39,11 +40,20 @@ export async function startHttpServer(options: HttpServerOptions): Promise<HttpS
   const server: Server = createServer((request, response) => {
     handle(options, counters, request, response).catch((error: unknown) => answerFailure(options.log, counters, response, error));
   });
+  // CONNECT (a proxy tunnel) and protocol upgrades are not served: refused, never left hanging.
+  const refuse = (_request: IncomingMessage, socket: Duplex) => {
+    counters.httpRequests.inc({ route: 'unmatched', status: '405' });
+    socket.end('HTTP/1.1 405 Method Not Allowed\r\nconnection: close\r\ncontent-length: 0\r\n\r\n');
+  };
+  server.on('connect', refuse);
+  server.on('upgrade', refuse);
   // Requests Node cannot parse (broken request line, oversized headers) never reach the handler: count and log them.
   server.on('clientError', (error: NodeJS.ErrnoException, socket) => {
-    counters.httpRequests.inc({ route: 'unparsed', status: '400' });
+    const tooLarge = error.code === 'HPE_HEADER_OVERFLOW';
+    counters.httpRequests.inc({ route: 'unparsed', status: tooLarge ? '431' : '400' });
     options.log.debug({ code: error.code }, 'unparsable http request');
-    if (socket.writable && !socket.destroyed) socket.end('HTTP/1.1 400 Bad Request\r\nconnection: close\r\ncontent-length: 0\r\n\r\n');
+    const status = tooLarge ? '431 Request Header Fields Too Large' : '400 Bad Request';
+    if (socket.writable && !socket.destroyed) socket.end(`HTTP/1.1 ${status}\r\nconnection: close\r\ncontent-length: 0\r\n\r\n`);
     else socket.destroy();
   });
   // Probes and scrapes are short; a slow or stuck client must not hold a socket for minutes.
@@ -74,10 +84,10 @@ export async function startHttpServer(options: HttpServerOptions): Promise<HttpS
 
 async function handle(options: HttpServerOptions, counters: Metrics, request: IncomingMessage, response: ServerResponse): Promise<void> {
   const method = request.method ?? 'GET';
-  const url = parseTarget(request.url);
+  const url = request.httpVersionMajor === 1 ? parseTarget(request.url) : undefined;
   if (!url) {
     counters.httpRequests.inc({ route: 'unmatched', status: '400' });
-    send(response, method, { status: 400, headers: { 'content-type': 'text/plain; charset=utf-8' }, body: 'bad request target\n' });
+    send(response, method, { status: 400, headers: { 'content-type': 'text/plain; charset=utf-8' }, body: 'bad request: HTTP/1.x with a valid target expected\n' });
     return;
   }
   const match = options.router.match(method, url.pathname);

@@ -49,3 +49,27 @@ describe('hostile requests', () => {
     expect((await fetch(`${server.url}/`)).status).toBe(200);
   });
 });
+
+describe('requests the fault suite found unanswered or failing', () => {
+  let server: HttpServer;
+  const { log } = memoryLog();
+  const metrics = createMetrics();
+  beforeAll(async () => {
+    const router = new Router().register('GET', '/', () => text('ok')).register('GET', '/incidents/:id', ({ params }) => {
+      if (params.id!.includes('\u0000')) throw new Error('invalid byte sequence for encoding "UTF8": 0x00');
+      return text('incident');
+    });
+    server = await startHttpServer({ router, port: 0, host: '127.0.0.1', log, metrics });
+  });
+  afterAll(async () => {
+    await server.close();
+  });
+
+  it.each([
+    ['CONNECT example.com:443 HTTP/1.1', 'HTTP/1.1 405 Method Not Allowed'],
+    ['GET /incidents/%00 HTTP/1.1', 'HTTP/1.1 404 Not Found'],
+    ['GET /', 'HTTP/1.1 400 Bad Request'],
+  ])('%s -> %s', async (line, status) => {
+    expect(await rawRequest(server.port, `${line}\r\nHost: x\r\nConnection: close\r\n\r\n`)).toBe(status);
+  });
+});

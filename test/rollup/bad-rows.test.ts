@@ -1,6 +1,10 @@
 /**
  * Rows plumbline cannot use as they are, on each warehouse engine: an empty
- * or blank user id is no user (the person falls back to the device id).
+ * or blank user id is no user (the person falls back to the device id); and
+ * the rows that once failed a whole day (a version equal to the all-versions
+ * marker, a null event name, 3 KB keys over PostgreSQL's index entry limit, a
+ * number beyond double precision) are counted per reason in the day's status
+ * and set aside or repaired, and the day rolls up.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FlowDefinition } from '../../checks/types.js';
@@ -67,5 +71,34 @@ describe.each(TEST_ENGINES)('bad rows on %s', (engine) => {
       values: [DAY],
     });
     expect(rows.map((r) => Number(r.entered))).toEqual([30]);
+  }, 120_000);
+
+  it('rolls up a day holding every row that once failed it, and counts each under its reason', async () => {
+    await warehouse.clear();
+    const long = 'x'.repeat(3000);
+    await warehouse.insert([
+      row(0, { user: 'good' }),
+      row(1, { user: 'star', version: '*' }),
+      row(2, { user: 'nameless', name: engine === 'postgres' ? '' : (null as unknown as string) }), // the demo's PostgreSQL table refuses a null name
+      row(3, { user: 'blank', name: '  ' }),
+      row(4, { user: 'long-version', version: long }),
+      row(5, { user: 'long-name', name: long }),
+      row(6, { user: 'long-country', country: 'é'.repeat(3000) }),
+      row(7, { user: 'long-key', props: { view: 'intro', [long]: 1 } }),
+      row(8, { user: 'huge', propsText: '{"view": "intro", "amount": 1e400}' }),
+      row(9, { user: 'tiny', propsText: '{"view": "intro", "amount": 1e-400}' }),
+    ]);
+    await rollupDay(ctx, DAY);
+    const { rows } = await state.pool.query<{ events: string; bad_rows: Record<string, number> }>({
+      text: `select events, bad_rows from ${quoteIdent(state.schema)}.day_status where day = $1 and platform = 'android'`,
+      values: [DAY],
+    });
+    expect(rows[0]!.bad_rows).toEqual({ no_event_name: 2, reserved_version: 1, long_text: 4, unreadable_params: 1 });
+    expect(Number(rows[0]!.events)).toBe(8);
+    const versions = await state.pool.query<{ version: string }>({
+      text: `select distinct version from ${quoteIdent(state.schema)}.event_days where day = $1 order by 1`,
+      values: [DAY],
+    });
+    expect(versions.rows.map((r) => r.version)).toEqual(['', '*', '7.1.0', `${'x'.repeat(127)}…`]);
   }, 120_000);
 });

@@ -60,7 +60,7 @@ describe('the PostgreSQL warehouse reads only', () => {
     const range = await warehouse.dayBounds('2026-06-10', 'UTC');
     expect(range.hi.getTime() - range.lo.getTime()).toBe(86_400_000);
     await warehouse.eventCounts(range);
-    await warehouse.hourCounts(range);
+    await warehouse.hourCounts(range, ['screen_shown']);
     await warehouse.paramProfiles(range, ['screen_shown'], []);
     await warehouse.flow(flow, range);
     await warehouse.probeCounts([{ day: '2026-06-09', lo: new Date('2026-06-09T00:00:00Z'), hi: new Date('2026-06-10T00:00:00Z') }]);

@@ -36,8 +36,8 @@ export class PostgresWarehouse implements Warehouse {
     return (await this.read<RawCountRow>(eventCountsQuery(this.mapping, range))).map(toEventCountRow);
   }
 
-  async hourCounts(range: DayRange) {
-    return (await this.read<RawHourRow>(hourCountsQuery(this.mapping, range))).map(toHourCountRow);
+  async hourCounts(range: DayRange, events: string[]) {
+    return (await this.read<RawHourRow>(hourCountsQuery(this.mapping, range, events))).map(toHourCountRow);
   }
 
   async paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]) {
