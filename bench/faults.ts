@@ -13,10 +13,11 @@
  */
 import { parseArgs } from 'node:util';
 import { chooseDevServer, safeUrl, type DevServer } from '../service/db/dev-server.js';
+import { hostileRowsFaults } from './faults/hostile-rows.js';
 import { httpFaults } from './faults/http.js';
 import type { FaultEnv, FaultSection } from './faults/section.js';
 
-const SECTIONS: FaultSection[] = [httpFaults];
+const SECTIONS: FaultSection[] = [hostileRowsFaults, httpFaults];
 
 const { values: args } = parseArgs({
   options: {
