@@ -130,7 +130,7 @@ async function run(env: FaultEnv): Promise<FaultFigure[]> {
     /** Every rollup table of the day, and the day's status without its bookkeeping. */
     const snapshot = async () => {
       const tables = ['event_days', 'param_days', 'funnel_days', 'step_days'];
-      const parts = await Promise.all(tables.map((table) => pool.query(`select t::text as row from ${st}.${table} t where day = '${DAY}' order by 1 collate "C"`)));
+      const parts = await Promise.all(tables.map((table) => pool.query(`select t::text as row from ${st}.${table} t where day = '${DAY}' order by t::text collate "C"`)));
       const status = await pool.query(`select platform, events, newest_at, hourly from ${st}.day_status where day = '${DAY}' order by platform`);
       return JSON.stringify([...parts.map((part) => part.rows), status.rows]);
     };

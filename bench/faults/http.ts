@@ -19,7 +19,7 @@ import { quoteIdent } from '../../service/db/sql.js';
 import type { FaultEnv, FaultFigure, FaultSection } from './section.js';
 
 const REQUESTS = 5000;
-const CONCURRENCY = 24;
+const CONCURRENCY = 48;
 /** Heap growth still counted as "back to baseline" after the storm and a short rest. */
 const HEAP_MARGIN_BYTES = 16 * 1024 * 1024;
 
