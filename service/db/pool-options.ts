@@ -1,5 +1,4 @@
 import type pg from 'pg';
-import type { MainConfig } from '../config/schema.js';
 
 /**
  * Session limits for every PostgreSQL pool (state and warehouse): a hung
@@ -9,7 +8,16 @@ import type { MainConfig } from '../config/schema.js';
  * timeouts per session (sent as startup parameters); node-postgres applies the
  * connection timeout and the socket's TCP keepalive.
  */
-export function poolOptions(connections: MainConfig['connections']): Pick<
+/** `connections` of plumbline.yaml, in seconds. */
+export interface ConnectionLimits {
+  connect_timeout: number;
+  lock_timeout: number;
+  idle_in_transaction_timeout: number;
+  state_statement_timeout: number;
+  keepalive_idle: number;
+}
+
+export function poolOptions(connections: ConnectionLimits): Pick<
   pg.PoolConfig,
   'connectionTimeoutMillis' | 'keepAlive' | 'keepAliveInitialDelayMillis' | 'statement_timeout' | 'lock_timeout' | 'idle_in_transaction_session_timeout'
 > {

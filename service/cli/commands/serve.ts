@@ -10,7 +10,7 @@ import { metrics } from '../../metrics.js';
 import { chatDelivery, weeklyDigest } from '../../runner/jobs.js';
 import { Runner } from '../../runner/runner.js';
 import { stopScheduledWork } from '../../runner/shutdown.js';
-import { watchUnhandled } from '../../runner/unhandled.js';
+import { watchUnhandled } from '../unhandled.js';
 import type { Runtime } from '../../runtime.js';
 import { Scheduler } from '../../scheduler/scheduler.js';
 import { EXIT, ExitError } from '../exit-codes.js';

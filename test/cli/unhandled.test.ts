@@ -3,7 +3,7 @@ import { EventEmitter } from 'node:events';
 import { describe, expect, it } from 'vitest';
 import { EXIT } from '../../service/cli/exit-codes.js';
 import { createMetrics } from '../../service/metrics.js';
-import { watchUnhandled, type ProcessEvents } from '../../service/runner/unhandled.js';
+import { watchUnhandled, type ProcessEvents } from '../../service/cli/unhandled.js';
 import { memoryLog } from '../scheduler/helpers.js';
 
 describe('watchUnhandled', () => {

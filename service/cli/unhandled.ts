@@ -1,6 +1,6 @@
 import type { Logger } from '../log.js';
 import type { Metrics } from '../metrics.js';
-import { EXIT } from '../cli/exit-codes.js';
+import { EXIT } from './exit-codes.js';
 
 /** The process events `watchUnhandled` listens to (the process itself, or a stand-in in tests). */
 export interface ProcessEvents {
