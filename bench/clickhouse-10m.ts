@@ -70,7 +70,7 @@ from ${quoteQualified('bench.day')} as day, numbers({copies:UInt32}) as copy`,
     const warehouse = new ClickHouseWarehouse(connection, { ...toWarehouseMapping(config.main), table: 'bench.events' });
     const ctx = { warehouse, state, stateSchema: options.stateSchema, timezone: config.main.timezone, flows: config.flows.map((flow) => toFlowDefinition(flow.config)) };
     const range = await warehouse.dayBounds(BENCH_DAY, ctx.timezone);
-    const events = (await warehouse.hourCounts(range)).reduce((sum, row) => sum + row.events, 0);
+    const events = (await warehouse.hourCounts(range, [])).reduce((sum, row) => sum + row.events, 0);
     const seconds: number[] = [];
     const cpuSeconds: number[] = [];
     for (let round = 0; round <= ROUNDS; round++) {

@@ -14,10 +14,12 @@
 import { parseArgs } from 'node:util';
 import { chooseDevServer, safeUrl, type DevServer } from '../service/db/dev-server.js';
 import { faultsDb } from './faults/db.js';
+import { hostileRowsFaults } from './faults/hostile-rows.js';
+import { httpFaults } from './faults/http.js';
 import { faultsKill } from './faults/kill.js';
 import type { FaultEnv, FaultSection } from './faults/section.js';
 
-const SECTIONS: FaultSection[] = [faultsKill, faultsDb];
+const SECTIONS: FaultSection[] = [hostileRowsFaults, httpFaults, faultsKill, faultsDb];
 
 const { values: args } = parseArgs({
   options: {

@@ -160,7 +160,7 @@ async function measureRounds(
     const untracked = await readUntrackedKeys(ctx, BENCH_DAY);
     const times: Record<string, number> = {
       counts: await timed(() => postgres.h30.eventCounts(range)),
-      status: await timed(() => postgres.h30.hourCounts(range)),
+      status: await timed(() => postgres.h30.hourCounts(range, watchedEvents(ctx.flows))),
       params: await timed(() => postgres.h30.paramProfiles(range, watchedEvents(ctx.flows), untracked)),
     };
     for (const flow of ctx.flows) times[`flow ${flow.id}`] = await timed(() => postgres.h30.flow(flow, range));

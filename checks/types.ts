@@ -101,6 +101,12 @@ export interface DayStatusRow {
   rolledUpAt: string;
   /** Event count at the previous rollup of the same day, when the day was rolled up before. */
   previousEvents: number | null;
+  /**
+   * Rows plumbline could not use as they were, per reason (no_event_name,
+   * reserved_version, long_text, unreadable_params; service/warehouse/mapping.ts):
+   * `no_event_name` rows are set aside and not in `events`, the others are counted there repaired.
+   */
+  badRows?: Record<string, number>;
 }
 
 export interface CalendarDay {

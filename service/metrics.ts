@@ -37,6 +37,8 @@ export interface Metrics {
   readonly dataLag: Gauge<'platform'>;
   /** `plumbline_http_requests_total{route, status}`; route is the registered pattern, never the raw path. */
   readonly httpRequests: Counter<'route' | 'status'>;
+  /** `plumbline_unhandled_errors_total{kind}`; kind: `rejection` (logged, the service keeps running), `exception` (logged, exit 70). */
+  readonly unhandledErrors: Counter<'kind'>;
 }
 
 export function createMetrics(options: { processMetrics?: boolean } = {}): Metrics {
@@ -94,6 +96,12 @@ export function createMetrics(options: { processMetrics?: boolean } = {}): Metri
       name: 'plumbline_http_requests_total',
       help: 'HTTP requests served, by route pattern and status code.',
       labelNames: ['route', 'status'],
+      registers,
+    }),
+    unhandledErrors: new Counter({
+      name: 'plumbline_unhandled_errors_total',
+      help: 'Errors nobody handled in serve (bugs): rejected promises (the service keeps running) and uncaught exceptions (it exits 70).',
+      labelNames: ['kind'],
       registers,
     }),
   };

@@ -5,6 +5,7 @@ import { toFlowDefinition, toWarehouseMapping, toWarehouseSettings } from './con
 import { resolveReference, type LoadedConfig } from './config/load.js';
 import { startEmbeddedPostgres, type EmbeddedServer } from './db/embedded.js';
 import { migrate } from './db/migrate.js';
+import { poolOptions } from './db/pool-options.js';
 import { createLogger, type Logger } from './log.js';
 import type { WarehouseMapping } from './warehouse/mapping.js';
 import type { WarehouseEngine } from './warehouse/engine.js';
@@ -72,10 +73,11 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
     stateUrl = embedded.url;
   }
   const max = options.poolSize ?? 6;
+  const limits = poolOptions(config.main.connections);
   // Separate pools, even on one server: a rollup's parallel statements, a pass's claim and an HTTP probe never wait for each other's connections.
-  const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state' });
-  const claims = new pg.Pool({ connectionString: stateUrl, max: CLAIM_POOL_SIZE, application_name: 'plumbline-claim' });
-  const httpState = new pg.Pool({ connectionString: stateUrl, max: HTTP_POOL_SIZE, application_name: 'plumbline-http' });
+  const state = new pg.Pool({ connectionString: stateUrl, max, application_name: 'plumbline-state', ...limits });
+  const claims = new pg.Pool({ connectionString: stateUrl, max: CLAIM_POOL_SIZE, application_name: 'plumbline-claim', ...limits });
+  const httpState = new pg.Pool({ connectionString: stateUrl, max: HTTP_POOL_SIZE, application_name: 'plumbline-http', ...limits });
   let closing = false;
   const watch = (pool: pg.Pool) => {
     pool.on('error', (error) => {
@@ -95,7 +97,7 @@ export async function openRuntime(config: LoadedConfig, options: RuntimeOptions 
   if (engine === 'clickhouse') {
     warehouse = await openClickHouseWarehouse(warehouseUrl, mapping, settings);
   } else {
-    const pool = new pg.Pool({ connectionString: warehouseUrl ?? stateUrl, max, application_name: 'plumbline-reader' });
+    const pool = new pg.Pool({ connectionString: warehouseUrl ?? stateUrl, max, application_name: 'plumbline-reader', ...limits });
     watch(pool);
     warehouse = openPostgresWarehouse(pool, mapping, settings);
   }

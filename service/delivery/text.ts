@@ -68,6 +68,27 @@ export function escapeChat(text: string): string {
 }
 
 /**
+ * Escapes text for Markdown (CommonMark and GitHub Flavored Markdown, as in a
+ * pull-request comment): every ASCII punctuation character that can start
+ * markup is backslash-escaped (CommonMark 0.31, section 2.4 "Backslash
+ * escapes": any ASCII punctuation may be escaped), so text cannot open an
+ * image, a link, emphasis, code, a heading or a table cell; `<` and `&` are
+ * written as entities, so no HTML tag or entity survives; and a word joiner
+ * after `@` and `#` keeps mentions and issue references from being linked.
+ */
+export function escapeMarkdown(text: string): string {
+  return text
+    .replace(/[\\`*_{}[\]()#+\-.!|~>"'$%:;=?^]/g, (c) => `\\${c}`)
+    .replace(/[&<]/g, (c) => ({ '&': '&amp;', '<': '&lt;' })[c]!)
+    .replace(/([@#])(?=[\p{L}\p{N}_])/gu, `$1${JOINER}`);
+}
+
+/** Client text for Markdown: cleaned, clipped, escaped. */
+export function markdownText(text: string, max: number): string {
+  return escapeMarkdown(cleanText(text, max));
+}
+
+/**
  * Client text for chat: cleaned (addresses defused: a bare domain may still be
  * linked by the client, but shows its real target, so data can never put
  * link text over a different address), clipped to `max` before escaping, then escaped.

@@ -91,6 +91,9 @@ function matchSegments(pattern: string[], parts: string[]): Record<string, strin
       } catch {
         return undefined;
       }
+      // No page names anything with control characters; PostgreSQL refuses NUL in text outright.
+      // eslint-disable-next-line no-control-regex
+      if (/[\u0000-\u001f\u007f]/.test(params[expected.slice(1)]!)) return undefined;
     } else if (expected !== actual) {
       return undefined;
     }

@@ -1,5 +1,6 @@
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
+import type { Duplex } from 'node:stream';
 import { escapeHtml } from '../delivery/text.js';
 import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
@@ -40,7 +41,23 @@ const DEFAULT_HEADERS: Record<string, string> = {
 export async function startHttpServer(options: HttpServerOptions): Promise<HttpServer> {
   const counters = options.metrics ?? processMetrics;
   const server: Server = createServer((request, response) => {
-    void handle(options, counters, request, response);
+    handle(options, counters, request, response).catch((error: unknown) => answerFailure(options.log, counters, response, error));
+  });
+  // CONNECT (a proxy tunnel) and protocol upgrades are not served: refused, never left hanging.
+  const refuse = (_request: IncomingMessage, socket: Duplex) => {
+    counters.httpRequests.inc({ route: 'unmatched', status: '405' });
+    socket.end('HTTP/1.1 405 Method Not Allowed\r\nconnection: close\r\ncontent-length: 0\r\n\r\n');
+  };
+  server.on('connect', refuse);
+  server.on('upgrade', refuse);
+  // Requests Node cannot parse (broken request line, oversized headers) never reach the handler: count and log them.
+  server.on('clientError', (error: NodeJS.ErrnoException, socket) => {
+    const tooLarge = error.code === 'HPE_HEADER_OVERFLOW';
+    counters.httpRequests.inc({ route: 'unparsed', status: tooLarge ? '431' : '400' });
+    options.log.debug({ code: error.code }, 'unparsable http request');
+    const status = tooLarge ? '431 Request Header Fields Too Large' : '400 Bad Request';
+    if (socket.writable && !socket.destroyed) socket.end(`HTTP/1.1 ${status}\r\nconnection: close\r\ncontent-length: 0\r\n\r\n`);
+    else socket.destroy();
   });
   // Probes and scrapes are short; a slow or stuck client must not hold a socket for minutes.
   server.requestTimeout = 30_000;
@@ -70,7 +87,12 @@ export async function startHttpServer(options: HttpServerOptions): Promise<HttpS
 
 async function handle(options: HttpServerOptions, counters: Metrics, request: IncomingMessage, response: ServerResponse): Promise<void> {
   const method = request.method ?? 'GET';
-  const url = new URL(request.url ?? '/', 'http://plumbline.invalid');
+  const url = request.httpVersionMajor === 1 ? parseTarget(request.url) : undefined;
+  if (!url) {
+    counters.httpRequests.inc({ route: 'unmatched', status: '400' });
+    send(response, method, { status: 400, headers: { 'content-type': 'text/plain; charset=utf-8' }, body: 'bad request: HTTP/1.x with a valid target expected\n' });
+    return;
+  }
   const match = options.router.match(method, url.pathname);
   let route = 'unmatched';
   let result: HttpResponse;
@@ -92,9 +114,39 @@ async function handle(options: HttpServerOptions, counters: Metrics, request: In
   }
   counters.httpRequests.inc({ route, status: String(result.status) });
   options.log.debug({ method, route, status: result.status }, 'http request');
+  send(response, method, result);
+}
+
+/** The request target as a URL, or undefined when it cannot be parsed (`//[`). */
+function parseTarget(target: string | undefined): URL | undefined {
+  try {
+    return new URL(target ?? '/', 'http://plumbline.invalid');
+  } catch {
+    return undefined;
+  }
+}
+
+function send(response: ServerResponse, method: string, result: HttpResponse): void {
   const body = typeof result.body === 'string' ? Buffer.from(result.body) : result.body;
   response.writeHead(result.status, { ...DEFAULT_HEADERS, 'content-length': String(body.length), ...result.headers });
   response.end(method === 'HEAD' ? undefined : body);
+}
+
+/** Whatever failed while answering (writing a refused header, a bug): a 500 when nothing was sent yet, always a log line. */
+function answerFailure(log: Logger, counters: Metrics, response: ServerResponse, error: unknown): void {
+  log.error({ err: error }, 'request failed');
+  counters.httpRequests.inc({ route: 'failed', status: '500' });
+  try {
+    if (!response.headersSent) {
+      response.removeHeader('content-length');
+      response.writeHead(500, { 'content-type': 'text/plain; charset=utf-8', 'cache-control': 'no-store' });
+      response.end('plumbline could not answer this request; the details are in its logs.\n');
+    } else {
+      response.destroy();
+    }
+  } catch {
+    response.destroy();
+  }
 }
 
 function page(title: string, content: string): string {

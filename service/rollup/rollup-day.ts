@@ -79,7 +79,7 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   const { warehouse } = ctx;
   const [counts, hours, params, flows] = await Promise.all([
     timed('counts', () => warehouse.eventCounts(range)),
-    timed('status', () => warehouse.hourCounts(range)),
+    timed('status', () => warehouse.hourCounts(range, watchedEvents(ctx.flows))),
     timed('params', async () => guardProfiles(await warehouse.paramProfiles(range, watchedEvents(ctx.flows), untracked), ctx.hiddenKeys ?? [])),
     Promise.all(ctx.flows.map((flow) => timed(`flow ${flow.id}`, () => warehouse.flow(flow, range)))),
   ]);
@@ -121,20 +121,21 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   };
 }
 
-/** Per platform: the day's events, the newest event, and events per local hour (23, 24 or 25 of them). */
+/** Per platform: the day's events, the newest event, events per local hour (23, 24 or 25 of them) and bad rows per reason. */
 function summariseStatus(rows: HourCountRow[], range: DayRange) {
   const hours = Math.round((range.hi.getTime() - range.lo.getTime()) / 3_600_000);
-  const byPlatform = new Map<string, { platform: string; events: number; newestAt: string | null; hourly: number[] }>();
+  const byPlatform = new Map<string, { platform: string; events: number; newestAt: string | null; hourly: number[]; badRows: Record<string, number> }>();
   for (const row of rows) {
     let entry = byPlatform.get(row.platform);
     if (!entry) {
-      entry = { platform: row.platform, events: 0, newestAt: null, hourly: new Array<number>(hours).fill(0) };
+      entry = { platform: row.platform, events: 0, newestAt: null, hourly: new Array<number>(hours).fill(0), badRows: {} };
       byPlatform.set(row.platform, entry);
     }
     entry.events += row.events;
     entry.hourly[row.hour] = (entry.hourly[row.hour] ?? 0) + row.events;
-    const newest = row.newestAt.toISOString();
-    if (entry.newestAt === null || newest > entry.newestAt) entry.newestAt = newest;
+    for (const [reason, count] of Object.entries(row.badRows)) if (count > 0) entry.badRows[reason] = (entry.badRows[reason] ?? 0) + count;
+    const newest = row.newestAt?.toISOString() ?? null;
+    if (newest !== null && (entry.newestAt === null || newest > entry.newestAt)) entry.newestAt = newest;
   }
   return [...byPlatform.values()];
 }

@@ -8,6 +8,7 @@
  */
 import type { EventDayRow, FunnelDayRow, ParamDayRow, StepDayRow } from '../../checks/types.js';
 import type { FlowDefinition } from '../../checks/types.js';
+import type { BadRowReason } from './mapping.js';
 
 export const WAREHOUSE_ENGINES = ['postgres', 'clickhouse'] as const;
 export type WarehouseEngine = (typeof WAREHOUSE_ENGINES)[number];
@@ -26,8 +27,12 @@ export type StepCountRow = Omit<StepDayRow, 'day' | 'flow'>;
 export interface HourCountRow {
   platform: string;
   hour: number;
+  /** Events, less the set-aside rows. */
   events: number;
-  newestAt: Date;
+  /** Null when every row of the hour was set aside. */
+  newestAt: Date | null;
+  /** Rows of the hour per bad-row reason (see BAD_ROW_REASONS in mapping.ts). */
+  badRows: Record<BadRowReason, number>;
 }
 
 /** One funnel grouping (platform x version, or platform x dimension value), every step at once. */
@@ -57,8 +62,8 @@ export interface Warehouse {
   dayBounds(day: string, timezone: string): Promise<DayRange>;
   /** Events and distinct people per event x platform x version, x platform, and x dimension value. */
   eventCounts(range: DayRange): Promise<EventCountRow[]>;
-  /** The freshness status: events per platform and local hour, and the newest event. */
-  hourCounts(range: DayRange): Promise<HourCountRow[]>;
+  /** The freshness status: events per platform and local hour, the newest event, and bad rows (parameter reasons counted on `events`). */
+  hourCounts(range: DayRange, events: string[]): Promise<HourCountRow[]>;
   /** Parameter profiles of the watched events; `untrackedKeys` ("event.key") are counted without grouping their values. */
   paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]): Promise<ParamProfileRow[]>;
   /** The flow's ordered funnel for the cohort entering on the day, and its step counts in any order. */

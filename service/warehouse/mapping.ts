@@ -21,6 +21,41 @@ export const TOP_VALUES = 12;
 /** Keys with more distinct values than this in a day are not value-profiled from then on. */
 export const LOW_CARDINALITY = 50;
 
+/**
+ * Rows plumbline cannot use as they are, in the order a row is counted (under
+ * its first reason only). `no_event_name` rows are set aside: no rollup
+ * counts them. The others are repaired and used: a version equal to the
+ * all-versions marker reads as no version, so it can never collide with the
+ * all-versions rows; a text key (event name, version, dimension value,
+ * parameter key) longer than TEXT_KEY_MAX_LENGTH is cut with a marker; a
+ * parameter object a JSON reader cannot take (a number beyond double
+ * precision anywhere in it, which ClickHouse's parsers refuse outright; or,
+ * in a ClickHouse text column, text that is not JSON) reads as no parameters.
+ */
+export const BAD_ROW_REASONS = ['no_event_name', 'reserved_version', 'long_text', 'unreadable_params'] as const;
+export type BadRowReason = (typeof BAD_ROW_REASONS)[number];
+/** Reasons whose rows no rollup counts; the others are counted in their repaired form. */
+export const SET_ASIDE_REASONS: readonly BadRowReason[] = ['no_event_name'];
+
+/** The version of the all-versions rows of event_days and funnel_days. */
+export const ALL_VERSIONS = '*';
+/**
+ * Longest text key kept whole, in characters: four of them at four bytes a
+ * character stay under PostgreSQL's limit on a B-tree index entry (about
+ * 2,700 bytes, a third of an 8 kB page).
+ */
+export const TEXT_KEY_MAX_LENGTH = 128;
+/** Appended to a cut key, which keeps TEXT_KEY_MAX_LENGTH characters in all. */
+export const CUT_MARKER = '…';
+/**
+ * Halfway between the largest finite double (IEEE 754 binary64) and the next
+ * power of two: a decimal number at least this large rounds to infinity when
+ * read as a double. Written out so PostgreSQL compares exact numerics with it.
+ */
+export const DOUBLE_OVERFLOW = '1.7976931348623158079372897e308';
+/** Half the smallest positive double: a nonzero decimal number below this in size reads as 0. */
+export const DOUBLE_UNDERFLOW = '2.4703282292062327208828e-324';
+
 /** The configured dimensions with the short aliases the statements give them (d0, d1, ...). */
 export function dimensionAliases(mapping: WarehouseMapping): Array<{ name: string; alias: string }> {
   return mapping.dimensions.map((name, i) => ({ name, alias: `d${i}` }));

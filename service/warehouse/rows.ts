@@ -4,6 +4,7 @@
  * integers as numbers), turned into the seam's rows. Both dialects name
  * their columns alike, so one conversion serves both.
  */
+import { BAD_ROW_REASONS, type BadRowReason } from './mapping.js';
 import type { EventCountRow, FlowRows, FunnelRow, HourCountRow, ParamProfileRow, ProbeCountRow, StepCountRow } from './engine.js';
 
 type Count = string | number;
@@ -18,13 +19,13 @@ export interface RawCountRow {
   people: Count;
 }
 
-export interface RawHourRow {
+export type RawHourRow = {
   platform: string;
   hour: number;
   events: Count;
-  /** A Date from PostgreSQL; milliseconds since the epoch from ClickHouse. */
-  newest_at: Date | number;
-}
+  /** A Date from PostgreSQL; milliseconds since the epoch from ClickHouse; null when every row of the hour was set aside. */
+  newest_at: Date | number | null;
+} & Record<BadRowReason, Count>;
 
 export interface RawParamRow {
   event: string;
@@ -75,7 +76,13 @@ export function toEventCountRow(row: RawCountRow): EventCountRow {
 }
 
 export function toHourCountRow(row: RawHourRow): HourCountRow {
-  return { platform: row.platform, hour: Number(row.hour), events: Number(row.events), newestAt: new Date(row.newest_at) };
+  return {
+    platform: row.platform,
+    hour: Number(row.hour),
+    events: Number(row.events),
+    newestAt: row.newest_at === null ? null : new Date(row.newest_at),
+    badRows: Object.fromEntries(BAD_ROW_REASONS.map((reason) => [reason, Number(row[reason])])) as Record<BadRowReason, number>,
+  };
 }
 
 export function toParamProfileRow(row: RawParamRow): ParamProfileRow {

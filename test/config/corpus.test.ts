@@ -104,7 +104,7 @@ const cases: Case[] = [
     name: 'a misspelt top-level key (the missing key it stands for is not reported twice)',
     changes: { [MAIN]: replace('timezone: America/New_York', 'timezon: America/New_York') },
     problems: [
-      'config/plumbline.yaml:2:1 timezon: expected one of the keys timezone, warehouse, state, judging, calendar, owners, incidents, delivery, schedule, http, found unknown key "timezon" (did you mean timezone?)',
+      'config/plumbline.yaml:2:1 timezon: expected one of the keys timezone, warehouse, state, judging, calendar, owners, incidents, delivery, schedule, http, connections, found unknown key "timezon" (did you mean timezone?)',
     ],
   },
   {

@@ -22,6 +22,8 @@ export interface RawEvent {
   platform: string;
   version: string | null;
   props: Record<string, unknown> | null;
+  /** The parameters as raw JSON text instead of `props`, for what JSON.stringify cannot write (1e400). */
+  propsText?: string;
   country?: string | null;
   channel?: string | null;
 }
@@ -56,7 +58,7 @@ export async function insertEvents(pool: pg.Pool, schema: string, events: RawEve
       events.map((e) => e.device),
       events.map((e) => e.platform),
       events.map((e) => e.version),
-      events.map((e) => (e.props === null ? null : JSON.stringify(e.props))),
+      events.map((e) => e.propsText ?? (e.props === null ? null : JSON.stringify(e.props))),
       events.map((e) => e.country ?? null),
       events.map((e) => e.channel ?? null),
     ],
@@ -150,7 +152,7 @@ export function clickHouseRow(e: RawEvent): Record<string, unknown> {
     device_id: e.device,
     platform: e.platform,
     app_version: e.version,
-    props: e.props === null ? null : JSON.stringify(e.props),
+    props: e.propsText ?? (e.props === null ? null : JSON.stringify(e.props)),
     country: e.country ?? null,
     channel: e.channel ?? null,
   };

@@ -58,7 +58,7 @@ const statements: Record<string, Record<string, { text: string; values: unknown 
     Object.entries({
       day_bounds: postgres.dayBoundsQuery('2026-03-08', 'America/New_York'),
       event_counts: postgres.eventCountsQuery(mapping, range),
-      hour_counts: postgres.hourCountsQuery(mapping, range),
+      hour_counts: postgres.hourCountsQuery(mapping, range, ['pass_purchase_result', 'zone_selected']),
       probe_counts: postgres.probeCountsQuery(mapping, days),
       param_profiles: postgres.paramProfileQuery(mapping, range, ['pass_purchase_result', 'zone_selected'], ['pass_purchase_result.amount_cents']),
       flow_exclusive_steps: flowQuery(mapping, exclusive, range),
@@ -69,7 +69,7 @@ const statements: Record<string, Record<string, { text: string; values: unknown 
     Object.entries({
       day_bounds: clickhouse.dayBoundsQuery('2026-03-08', 'America/New_York'),
       event_counts: clickhouse.eventCountsQuery(table, range),
-      hour_counts: clickhouse.hourCountsQuery(table, range),
+      hour_counts: clickhouse.hourCountsQuery(table, range, ['pass_purchase_result', 'zone_selected']),
       probe_counts: clickhouse.probeCountsQuery(table, days),
       param_profiles: clickhouse.paramProfileQuery(table, range, ['pass_purchase_result', 'zone_selected'], ['pass_purchase_result.amount_cents']),
       funnel_exclusive_steps: clickhouseFlow.funnelQuery(table, exclusive, range),

@@ -1,6 +1,8 @@
 import { backtest, loadConfigAtRef, type BacktestResult } from '../../pipeline/backtest.js';
 import type { Runtime } from '../../runtime.js';
+import { markdownText } from '../../delivery/text.js';
 import { EXIT, ExitError } from '../exit-codes.js';
+import { printOut } from '../terminal.js';
 import { dayRanges } from '../report.js';
 
 export interface BacktestCommandOptions {
@@ -16,13 +18,13 @@ export async function backtestCommand(rt: Runtime, options: BacktestCommandOptio
   const common = { days: options.days, ...(options.to ? { to: options.to } : {}), ...(options.flow ? { flows: options.flow } : {}) };
   const after = await backtest(rt, common);
   if (!options.against) {
-    if (options.json) console.log(JSON.stringify(after, null, 2));
-    else console.log(formatBacktest(after));
+    if (options.json) printOut(JSON.stringify(after, null, 2), { json: true });
+    else printOut(formatBacktest(after));
     return EXIT.ok;
   }
   const before = await backtest(rt, { ...common, to: after.to, config: loadConfigAtRef(rt.config.dir, options.against) });
-  if (options.json) console.log(JSON.stringify({ against: options.against, before, after }, null, 2));
-  else console.log(formatDiff(options.against, before, after));
+  if (options.json) printOut(JSON.stringify({ against: options.against, before, after }, null, 2), { json: true });
+  else printOut(formatDiff(options.against, before, after));
   return EXIT.ok;
 }
 
@@ -90,7 +92,7 @@ export function formatDiff(ref: string, before: BacktestResult, after: BacktestR
     lines.push(`| ${check} | ${platform} | ${b} | ${a} | ${a - b > 0 ? '+' : ''}${a - b} |`);
   }
   const describe = (incident: BacktestResult['incidents'][number]) =>
-    `- ${incident.openedDay} ${incident.flows.join(', ')} [${incident.causeLabel}] ${incident.title.replaceAll('|', '\\|')}`;
+    `- ${incident.openedDay} ${markdownText(incident.flows.join(', '), 200)} \\[${incident.causeLabel}\\] ${markdownText(incident.title, 300)}`;
   const fingerprints = (result: BacktestResult) => new Set(loud(result).map((incident) => `${incident.fingerprint}|${incident.openedDay}`));
   const gone = loud(before).filter((incident) => !fingerprints(after).has(`${incident.fingerprint}|${incident.openedDay}`));
   const added = loud(after).filter((incident) => !fingerprints(before).has(`${incident.fingerprint}|${incident.openedDay}`));

@@ -7,6 +7,7 @@ import { replayClock } from '../../pipeline/run-day.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT } from '../exit-codes.js';
 import { formatSummary, loadSummary } from '../summary.js';
+import { printOut } from '../terminal.js';
 
 export async function demoCommand(rt: Runtime, options: { json?: boolean; days: number; findings?: boolean }): Promise<number> {
   const demo = await prepareDemo(rt, { quiet: options.json ?? false });
@@ -17,9 +18,9 @@ export async function demoCommand(rt: Runtime, options: { json?: boolean; days: 
   const summary = await loadSummary(rt, demo.judgedFrom, demo.to);
   const delivery = { chatMessages: chat.sent, chatFolder: chat.folder ?? null, digestWeek: digest.week, digestHtml: digest.html, digestEml: digest.eml };
   if (options.json) {
-    console.log(JSON.stringify({ demo, delivery, ...summary }, null, 2));
+    printOut(JSON.stringify({ demo, delivery, ...summary }, null, 2), { json: true });
   } else {
-    console.log(formatSummary(rt.flows, summary, { pictureDays: options.days, allFindings: options.findings ?? false }));
+    printOut(formatSummary(rt.flows, summary, { pictureDays: options.days, allFindings: options.findings ?? false }));
     console.log(`\nDemo: ${demo.events.toLocaleString('en-US')} events from ${demo.from} to ${demo.to}, judged from ${demo.judgedFrom}, in ${(demo.millis / 1000).toFixed(1)} s.`);
     console.log(`Ground truth of the injected incidents: ${demo.groundTruthPath}`);
     console.log(`Chat messages (no webhook configured): ${chat.sent} written to ${chat.folder ?? 'the webhook'}`);

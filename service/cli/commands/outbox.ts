@@ -2,6 +2,7 @@ import { OUTBOX_STATES, listOutbox, outboxCounts, requeue, type OutboxMessage } 
 import { drainOutbox } from '../../delivery/sender.js';
 import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
+import { printOut } from '../terminal.js';
 
 export interface OutboxCommandOptions {
   retry?: number;
@@ -45,10 +46,10 @@ export async function outboxCommand(rt: Runtime, options: OutboxCommandOptions):
   const messages = await listOutbox(rt.state, rt.stateSchema, states);
   const counts = await outboxCounts(rt.state, rt.stateSchema);
   if (options.json) {
-    console.log(JSON.stringify({ counts, messages }, null, 2));
+    printOut(JSON.stringify({ counts, messages }, null, 2), { json: true });
   } else {
     console.log(`outbox: ${OUTBOX_STATES.map((state) => `${counts[state]} ${state}`).join(', ')}`);
-    for (const message of messages) console.log(describe(message));
+    for (const message of messages) printOut(describe(message));
     if (counts.parked > 0) console.log('parked messages wait for a person: fix the cause, then `plumbline outbox --retry ID`');
     if (counts.unconfirmed > 0) console.log('unconfirmed messages may have been shown: look in the channel, then `plumbline outbox --retry ID` those missing');
   }

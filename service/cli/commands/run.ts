@@ -6,6 +6,7 @@ import type { Runtime } from '../../runtime.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { Progress } from '../progress.js';
 import { PICTURE_DAYS, formatSummary, loadSummary } from '../summary.js';
+import { printOut } from '../terminal.js';
 
 export interface RunCommandOptions {
   date?: string;
@@ -63,8 +64,8 @@ async function runClaimed(rt: Runtime, options: RunCommandOptions): Promise<numb
     throw new ExitError(EXIT.usage, 'give --date D, or --from D1 --to D2');
   }
   const summary = await loadSummary(rt, from, to);
-  if (options.json) console.log(JSON.stringify(summary, null, 2));
-  else console.log(formatSummary(rt.flows, summary, { pictureDays: options.days ?? PICTURE_DAYS, allFindings: options.findings ?? false }));
+  if (options.json) printOut(JSON.stringify(summary, null, 2), { json: true });
+  else printOut(formatSummary(rt.flows, summary, { pictureDays: options.days ?? PICTURE_DAYS, allFindings: options.findings ?? false }));
   return EXIT.ok;
 }
 

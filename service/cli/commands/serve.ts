@@ -14,6 +14,7 @@ import { chatDelivery, weeklyDigest } from '../../runner/jobs.js';
 import { Runner } from '../../runner/runner.js';
 import { stopScheduledWork } from '../../runner/shutdown.js';
 import { httpRuntime, type Runtime } from '../../runtime.js';
+import { watchUnhandled } from '../unhandled.js';
 import { Scheduler } from '../../scheduler/scheduler.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { withRuntime } from '../with-runtime.js';
@@ -67,6 +68,7 @@ export async function serveCommand(dir: string, options: ServeCommandOptions, en
     throw new ExitError(EXIT.usage, '--port expects a port number from 0 to 65535');
   }
   const log = createLogger({ level: env.PLUMBLINE_LOG_LEVEL ?? 'info' });
+  watchUnhandled(process, log, metrics);
   return await withRuntime(dir, (rt) => serve(rt, options, settings, log, env), { log, forceEmbedded: options.demo === true, ownSignals: true });
 }
 

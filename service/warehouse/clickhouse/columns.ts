@@ -8,7 +8,12 @@
  * are turned into text first, as PostgreSQL's `::text` does.
  */
 import { quoteIdent, quoteQualified } from '../../db/sql.js';
-import { UNMAPPED_PLATFORM, type WarehouseMapping } from '../mapping.js';
+import { ALL_VERSIONS, CUT_MARKER, TEXT_KEY_MAX_LENGTH, UNMAPPED_PLATFORM, type WarehouseMapping } from '../mapping.js';
+
+/** `text` cut to TEXT_KEY_MAX_LENGTH characters (code points, as PostgreSQL counts them), the last one the cut marker, when longer. */
+export function cutText(text: string): string {
+  return `if(lengthUTF8(${text}) > ${TEXT_KEY_MAX_LENGTH}, concat(leftUTF8(${text}, ${TEXT_KEY_MAX_LENGTH - 1}), '${CUT_MARKER}'), ${text})`;
+}
 import type { ChParams } from './sql.js';
 
 /** The team's events table: its mapping, and its column types by name as `describe table` gives them. */
@@ -43,14 +48,33 @@ export class Columns {
     return `toUnixTimestamp64Micro(toDateTime64(${this.time}, 6, 'UTC'))`;
   }
   get name(): string {
-    return this.role('name');
+    return cutText(this.role('name'));
   }
-  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. */
+  /** False for rows without a usable event name (null, empty or blank): they are set aside. */
+  get named(): string {
+    return `coalesce(trimBoth(${this.role('name')}, ' \\t\\r\\n') != '', false)`;
+  }
+  /** A person is the signed-in user, falling back to the device; prefixed so ids of both kinds never collide. An empty or blank id is no id. */
   get person(): string {
-    return `coalesce(concat('u:', ${this.role('user')}), concat('d:', ${this.role('device')}))`;
+    const id = (role: 'user' | 'device', prefix: string) => `if(trimBoth(${this.role(role)}, ' \\t\\r\\n') != '', concat('${prefix}', ${this.role(role)}), NULL)`;
+    return `coalesce(${id('user', 'u:')}, ${id('device', 'd:')})`;
   }
+  /** The version; one equal to the all-versions marker reads as no version. */
   get version(): string {
-    return `coalesce(${this.role('version')}, '')`;
+    const raw = `coalesce(${this.role('version')}, '')`;
+    return `if(${raw} = '${ALL_VERSIONS}', '', ${cutText(raw)})`;
+  }
+  /** The row's first reason among BAD_ROW_REASONS (null: a good row); parameter reasons only for `watched` events. */
+  badRowReason(watched: string): string {
+    const raw = (column: string) => `coalesce(${this.text(column)}, '')`;
+    const { columns, dimensions } = this.mapping;
+    const long = [raw(columns.name), raw(columns.version), ...dimensions.map(raw)].map((t) => `lengthUTF8(${t}) > ${TEXT_KEY_MAX_LENGTH}`);
+    const props = `coalesce(${this.props}, '')`;
+    const longKey = `arrayExists(k -> lengthUTF8(k) > ${TEXT_KEY_MAX_LENGTH}, JSONExtractKeys(${props}))`;
+    return `multiIf(not ${this.named}, 'no_event_name',
+      ${raw(columns.version)} = '${ALL_VERSIONS}', 'reserved_version',
+      ${long.join(' or ')} or (${watched} and ${longKey}), 'long_text',
+      ${watched} and ${props} != '' and not isValidJSON(${props}), 'unreadable_params', NULL)`;
   }
   /** The parameter object as JSON text: the JSON type is written out, so both storages are read by the same functions. */
   get props(): string {
@@ -72,7 +96,7 @@ export class Columns {
     return `transform(${raw}, ${from}, ${to}, ${this.params.add(UNMAPPED_PLATFORM, 'String')})`;
   }
   dimension(name: string): string {
-    return `coalesce(${this.text(name)}, '')`;
+    return cutText(`coalesce(${this.text(name)}, '')`);
   }
   get table(): string {
     return `${quoteQualified(this.mapping.table)} as e`;

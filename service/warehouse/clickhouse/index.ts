@@ -32,8 +32,8 @@ export class ClickHouseWarehouse implements Warehouse {
     return rows.map(toEventCountRow);
   }
 
-  async hourCounts(range: DayRange) {
-    const rows = await this.connection.query<RawHourRow>(hourCountsQuery(await this.eventsTable(), range));
+  async hourCounts(range: DayRange, events: string[]) {
+    const rows = await this.connection.query<RawHourRow>(hourCountsQuery(await this.eventsTable(), range, events));
     return rows.map(toHourCountRow);
   }
 

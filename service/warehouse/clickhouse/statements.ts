@@ -12,9 +12,9 @@
  * at each occurrence (jsonb keeps the last), and the JSON type drops keys
  * whose value is null, so with it those never show up as 'null'.
  */
-import { LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent } from '../mapping.js';
+import { BAD_ROW_REASONS, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent } from '../mapping.js';
 import type { DayRange } from '../engine.js';
-import { Columns, type EventsTable } from './columns.js';
+import { Columns, cutText, type EventsTable } from './columns.js';
 import { ChParams, type ChQuery } from './sql.js';
 
 /**
@@ -53,7 +53,7 @@ export function eventCountsQuery(table: EventsTable, range: DayRange): ChQuery {
   const p = new ChParams();
   const c = new Columns(table, p);
   const dims = dimensionAliases(table.mapping);
-  const inDay = c.inRange(p.instant(range.lo), p.instant(range.hi));
+  const inDay = `${c.inRange(p.instant(range.lo), p.instant(range.hi))} and ${c.named}`;
   // (version, dimension, value) of every row a person's events feed besides their version's: all versions, then each dimension.
   const cells = [`('*', '', '')`, ...dims.map((d) => `('*', ${p.add(d.name, 'String')}, ${d.alias})`)];
   const text = `
@@ -78,18 +78,24 @@ group by event, platform, version, dimension, value`;
 /**
  * Events per platform and local hour of the day (elapsed hours since local
  * midnight, so 23 or 25 of them on DST days), and the newest event in
- * milliseconds: the freshness status. Grouped by the raw platform value
- * first; the mapping runs once per group.
+ * milliseconds: the freshness status; with the day's bad rows per reason
+ * (BAD_ROW_REASONS), each row under its first reason. Set-aside rows are not
+ * events. Grouped by the raw platform value first; the mapping runs once per group.
  */
-export function hourCountsQuery(table: EventsTable, range: DayRange): ChQuery {
+export function hourCountsQuery(table: EventsTable, range: DayRange, events: string[]): ChQuery {
   const p = new ChParams();
   const c = new Columns(table, p);
+  const used = `coalesce(reason, '') != 'no_event_name'`;
   const text = `
-select ${c.platformOf('raw_platform')} as platform, hour, sum(events) as events, intDiv(max(newest), 1000) as newest_at
+select ${c.platformOf('raw_platform')} as platform, hour, sum(events) as events, if(max(newest) = 0, NULL, intDiv(max(newest), 1000)) as newest_at${BAD_ROW_REASONS.map((r) => `, sum(${r}) as ${r}`).join('')}
 from (
-  select ${c.rawPlatform} as raw_platform, intDiv(${c.micros} - ${p.micros(range.lo)}, 3600000000) as hour, count() as events, max(${c.micros}) as newest
-  from ${c.table}
-  where ${c.inRange(p.instant(range.lo), p.instant(range.hi))}
+  select raw_platform, hour, countIf(${used}) as events, maxIf(at, ${used}) as newest${BAD_ROW_REASONS.map((r) => `, countIf(reason = '${r}') as ${r}`).join('')}
+  from (
+    select ${c.rawPlatform} as raw_platform, intDiv(${c.micros} - ${p.micros(range.lo)}, 3600000000) as hour, ${c.micros} as at,
+           ${c.badRowReason(`has(${p.add(events, 'Array(String)')}, ${c.role('name')})`)} as reason
+    from ${c.table}
+    where ${c.inRange(p.instant(range.lo), p.instant(range.hi))}
+  )
   group by raw_platform, hour
 )
 group by platform, hour`;
@@ -109,7 +115,7 @@ select ${p.add(days.map((d) => d.day), 'Array(String)')}[day_index] as day, plat
 from (
   select arrayFirstIndex((lo, hi) -> ${c.micros} >= lo and ${c.micros} < hi, ${los}, ${his}) as day_index, ${c.platform} as platform
   from ${c.table}
-  where ${c.inRange(p.instant(first), p.instant(last))}
+  where ${c.inRange(p.instant(first), p.instant(last))} and ${c.named}
 )
 where day_index > 0
 group by day, platform`;
@@ -144,7 +150,7 @@ with kv as (
     from ${c.table}
     where ${c.inRange(p.instant(range.lo), p.instant(range.hi))} and has(${p.add(events, 'Array(String)')}, event)
   )
-  array join JSONExtractKeysAndValuesRaw(assumeNotNull(props)) as pair
+  array join arrayMap(kv -> (${cutText('kv.1')}, kv.2), JSONExtractKeysAndValuesRaw(assumeNotNull(props))) as pair
 ),
 ${rawGroupedCte()},
 ${groupedCte(c)}

@@ -29,16 +29,15 @@ export class PostgresWarehouse implements Warehouse {
   ) {}
 
   async dayBounds(day: string, timezone: string): Promise<DayRange> {
-    const { rows } = await this.pool.query<DayRange>(dayBoundsQuery(day, timezone));
-    return rows[0]!;
+    return (await this.read<DayRange>(dayBoundsQuery(day, timezone)))[0]!;
   }
 
   async eventCounts(range: DayRange) {
     return (await this.read<RawCountRow>(eventCountsQuery(this.mapping, range))).map(toEventCountRow);
   }
 
-  async hourCounts(range: DayRange) {
-    return (await this.read<RawHourRow>(hourCountsQuery(this.mapping, range))).map(toHourCountRow);
+  async hourCounts(range: DayRange, events: string[]) {
+    return (await this.read<RawHourRow>(hourCountsQuery(this.mapping, range, events))).map(toHourCountRow);
   }
 
   async paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]) {

@@ -9,8 +9,8 @@
  */
 import { Params, type Query } from '../../db/sql.js';
 import type { DayRange } from '../engine.js';
-import { LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent, type WarehouseMapping } from '../mapping.js';
-import { Columns } from './columns.js';
+import { BAD_ROW_REASONS, DOUBLE_UNDERFLOW, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent, type WarehouseMapping } from '../mapping.js';
+import { Columns, cutText } from './columns.js';
 
 /** Start and end of business day `day` in `timezone`: 23, 24 or 25 hours apart. */
 export function dayBoundsQuery(day: string, timezone: string): Query {
@@ -67,7 +67,7 @@ class CountsParts {
     return `
     select ${c.name} as event, ${c.platform} as platform, ${c.version} as version, ${c.person} as person${withDims ? this.dims.map((d) => `, ${c.dimension(d.name)} as ${d.alias}`).join('') : ''}
     from ${c.table}
-    where ${c.time} >= ${this.lo} and ${c.time} < ${this.hi}`;
+    where ${c.time} >= ${this.lo} and ${c.time} < ${this.hi} and ${c.named}`;
   }
 
   perPersonCte(): string {
@@ -121,21 +121,28 @@ ${perDimension.join('\n')}`;
 
 /**
  * Events per platform and local hour of the day, and the newest event: the
- * freshness status. Rows are grouped by the raw platform value and a date_bin
- * of the time from the day's start (plain timestamp arithmetic per row); the
- * platform mapping and the hour index are computed per group.
+ * freshness status; with the day's bad rows per reason (BAD_ROW_REASONS),
+ * each row under its first reason. Set-aside rows are not events. Rows are
+ * grouped by the raw platform value and a date_bin of the time from the
+ * day's start (plain timestamp arithmetic per row); the platform mapping and
+ * the hour index are computed per group.
  */
-export function hourCountsQuery(mapping: WarehouseMapping, range: DayRange): Query {
+export function hourCountsQuery(mapping: WarehouseMapping, range: DayRange, events: string[]): Query {
   const p = new Params();
   const c = new Columns(mapping, p);
   const from = p.add(range.lo);
+  const used = `reason is distinct from 'no_event_name'`;
   const text = `
 select ${c.platformOf('raw_platform')} as platform, floor(extract(epoch from bin - ${from}::timestamptz) / 3600)::int as hour,
-       sum(events) as events, max(newest_at) as newest_at
+       sum(events) as events, max(newest_at) as newest_at${BAD_ROW_REASONS.map((r) => `, sum(${r}) as ${r}`).join('')}
 from (
-  select ${c.col('platform')}::text as raw_platform, date_bin('1 hour', ${c.time}, ${from}::timestamptz) as bin, count(*) as events, max(${c.time}) as newest_at
-  from ${c.table}
-  where ${c.time} >= ${from} and ${c.time} < ${p.add(range.hi)}
+  select raw_platform, bin, count(*) filter (where ${used}) as events, max(at) filter (where ${used}) as newest_at${BAD_ROW_REASONS.map((r) => `, count(*) filter (where reason = '${r}') as ${r}`).join('')}
+  from (
+    select ${c.col('platform')}::text as raw_platform, date_bin('1 hour', ${c.time}, ${from}::timestamptz) as bin, ${c.time} as at,
+           ${c.badRowReason(`${c.col('name')}::text = any(${p.add(events)}::text[])`)} as reason
+    from ${c.table}
+    where ${c.time} >= ${from} and ${c.time} < ${p.add(range.hi)}
+  ) r
   group by raw_platform, bin
 ) g
 group by 1, bin`;
@@ -149,7 +156,7 @@ export function probeCountsQuery(mapping: WarehouseMapping, days: Array<{ day: s
   const text = `
 select b.day::text as day, ${c.platform} as platform, count(*) as events
 from unnest(${p.add(days.map((d) => d.day))}::date[], ${p.add(days.map((d) => d.lo))}::timestamptz[], ${p.add(days.map((d) => d.hi))}::timestamptz[]) as b(day, lo, hi)
-join ${c.table} on ${c.time} >= b.lo and ${c.time} < b.hi
+join ${c.table} on ${c.time} >= b.lo and ${c.time} < b.hi and ${c.named}
 group by b.day, platform`;
   return { text, values: p.values };
 }
@@ -170,6 +177,11 @@ export function paramProfileQuery(mapping: WarehouseMapping, range: DayRange, ev
 with ${[parts.keyValuesCte(range, events, untrackedKeys), parts.rawGroupedCte(), parts.groupedCte(), parts.totalsCte(), parts.topsCte()].join(',\n')}
 ${parts.profileRows()}`;
   return { text, values: p.values };
+}
+
+/** A JSON number as a double; one too small to be anything but 0 reads as 0, as ClickHouse reads it (PostgreSQL's cast refuses it). */
+function readNumber(value: string): string {
+  return `case when abs((${value})::numeric) < ${DOUBLE_UNDERFLOW} then 0::float8 else (${value})::float8 end`;
 }
 
 /** The named CTEs of `paramProfileQuery`. */
@@ -199,7 +211,7 @@ class ProfileParts {
     where ${c.time} >= ${p.add(range.lo)} and ${c.time} < ${p.add(range.hi)} and ${c.name} = any(${p.add(events)}::text[])
       and jsonb_typeof(${c.props}) = 'object'
   ) r
-  cross join lateral jsonb_each(r.props) as kv(key, value)
+  cross join lateral (select ${cutText('j.key')} as key, j.value from jsonb_each(r.props) j) as kv
 )`;
   }
 
@@ -209,7 +221,7 @@ class ProfileParts {
          case when tracked and json_type in ('string', 'number', 'boolean') then left(value #>> '{}', ${VALUE_MAX_LENGTH}) end as value,
          count(*) as n, min(number) as min_number, max(number) as max_number,
          count(*) filter (where number <> trunc(number)) as fractional
-  from (select kv.*, case when json_type = 'number' then (value)::float8 end as number from kv) k
+  from (select kv.*, case when json_type = 'number' then ${readNumber('value')} end as number from kv) k
   group by 1, 2, 3, 4, 5, 6, 7
 )`;
   }

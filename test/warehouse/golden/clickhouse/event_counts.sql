@@ -1,12 +1,12 @@
 with per_person as (
-  select e."event_name" as event, transform(e."platform", {p5:Array(String)}, {p6:Array(String)}, {p7:String}) as platform, coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id"))) as person, count() as person_events, min(coalesce(e."country", '')) as d0, min(coalesce(toString(e."channel"), '')) as d1
+  select if(lengthUTF8(e."event_name") > 128, concat(leftUTF8(e."event_name", 127), '…'), e."event_name") as event, transform(e."platform", {p5:Array(String)}, {p6:Array(String)}, {p7:String}) as platform, coalesce(if(trimBoth(e."user_id", ' \t\r\n') != '', concat('u:', e."user_id"), NULL), if(trimBoth(toString(e."device_id"), ' \t\r\n') != '', concat('d:', toString(e."device_id")), NULL)) as person, count() as person_events, min(if(lengthUTF8(coalesce(e."country", '')) > 128, concat(leftUTF8(coalesce(e."country", ''), 127), '…'), coalesce(e."country", ''))) as d0, min(if(lengthUTF8(coalesce(toString(e."channel"), '')) > 128, concat(leftUTF8(coalesce(toString(e."channel"), ''), 127), '…'), coalesce(toString(e."channel"), ''))) as d1
   from "analytics"."events" as e
-  where e."occurred_at" >= {p1:DateTime64(6, 'UTC')} and e."occurred_at" < {p2:DateTime64(6, 'UTC')}
+  where e."occurred_at" >= {p1:DateTime64(6, 'UTC')} and e."occurred_at" < {p2:DateTime64(6, 'UTC')} and coalesce(trimBoth(e."event_name", ' \t\r\n') != '', false)
   group by event, platform, person
 )
-select e."event_name" as event, transform(e."platform", {p8:Array(String)}, {p9:Array(String)}, {p10:String}) as platform, coalesce(e."app_version", '') as version, '' as dimension, '' as value, count() as events, uniqExact(coalesce(concat('u:', e."user_id"), concat('d:', toString(e."device_id")))) as people
+select if(lengthUTF8(e."event_name") > 128, concat(leftUTF8(e."event_name", 127), '…'), e."event_name") as event, transform(e."platform", {p8:Array(String)}, {p9:Array(String)}, {p10:String}) as platform, if(coalesce(e."app_version", '') = '*', '', if(lengthUTF8(coalesce(e."app_version", '')) > 128, concat(leftUTF8(coalesce(e."app_version", ''), 127), '…'), coalesce(e."app_version", ''))) as version, '' as dimension, '' as value, count() as events, uniqExact(coalesce(if(trimBoth(e."user_id", ' \t\r\n') != '', concat('u:', e."user_id"), NULL), if(trimBoth(toString(e."device_id"), ' \t\r\n') != '', concat('d:', toString(e."device_id")), NULL))) as people
 from "analytics"."events" as e
-where e."occurred_at" >= {p1:DateTime64(6, 'UTC')} and e."occurred_at" < {p2:DateTime64(6, 'UTC')}
+where e."occurred_at" >= {p1:DateTime64(6, 'UTC')} and e."occurred_at" < {p2:DateTime64(6, 'UTC')} and coalesce(trimBoth(e."event_name", ' \t\r\n') != '', false)
 group by event, platform, version
 union all
 select event, platform, cell.1 as version, cell.2 as dimension, cell.3 as value, sum(person_events) as events, count(person) as people

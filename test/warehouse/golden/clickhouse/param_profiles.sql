@@ -1,11 +1,11 @@
 with kv as (
   select event, raw_platform, version, pair.1 as key, pair.2 as raw, multiIf(JSONType(raw) = 'String', 'string', JSONType(raw) in ('Int64', 'UInt64', 'Double'), 'number', JSONType(raw) = 'Bool', 'boolean', JSONType(raw) = 'Null', 'null', JSONType(raw) = 'Array', 'array', 'object') as json_type, multiIf(event = {p1:String}, not has({p2:Array(String)}, key), true) as tracked
   from (
-    select e."event_name" as event, e."platform" as raw_platform, coalesce(e."app_version", '') as version, e."props" as props
+    select if(lengthUTF8(e."event_name") > 128, concat(leftUTF8(e."event_name", 127), '…'), e."event_name") as event, e."platform" as raw_platform, if(coalesce(e."app_version", '') = '*', '', if(lengthUTF8(coalesce(e."app_version", '')) > 128, concat(leftUTF8(coalesce(e."app_version", ''), 127), '…'), coalesce(e."app_version", ''))) as version, e."props" as props
     from "analytics"."events" as e
     where e."occurred_at" >= {p3:DateTime64(6, 'UTC')} and e."occurred_at" < {p4:DateTime64(6, 'UTC')} and has({p5:Array(String)}, event)
   )
-  array join JSONExtractKeysAndValuesRaw(assumeNotNull(props)) as pair
+  array join arrayMap(kv -> (if(lengthUTF8(kv.1) > 128, concat(leftUTF8(kv.1, 127), '…'), kv.1), kv.2), JSONExtractKeysAndValuesRaw(assumeNotNull(props))) as pair
 ),
 raw_grouped as (
   select event, raw_platform, version, key, json_type, tracked,

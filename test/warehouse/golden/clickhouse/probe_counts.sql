@@ -2,7 +2,7 @@ select {p3:Array(String)}[day_index] as day, platform, count() as events
 from (
   select arrayFirstIndex((lo, hi) -> toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) >= lo and toUnixTimestamp64Micro(toDateTime64(e."occurred_at", 6, 'UTC')) < hi, {p1:Array(Int64)}, {p2:Array(Int64)}) as day_index, transform(e."platform", {p4:Array(String)}, {p5:Array(String)}, {p6:String}) as platform
   from "analytics"."events" as e
-  where e."occurred_at" >= {p7:DateTime64(6, 'UTC')} and e."occurred_at" < {p8:DateTime64(6, 'UTC')}
+  where e."occurred_at" >= {p7:DateTime64(6, 'UTC')} and e."occurred_at" < {p8:DateTime64(6, 'UTC')} and coalesce(trimBoth(e."event_name", ' \t\r\n') != '', false)
 )
 where day_index > 0
 group by day, platform

@@ -1,9 +1,9 @@
 with per_person as (
   select event, platform, person, count(*)::int as n, min(version) as version_lo, max(version) as version_hi, min(d0) as d0, min(d1) as d1
   from (
-    select (e."event_name"::text collate "C") as event, (case when e."platform"::text = any($3::text[]) then $4::text when e."platform"::text = any($5::text[]) then $6::text when e."platform"::text = any($7::text[]) then $8::text else $9::text end collate "C") as platform, (coalesce(e."app_version"::text, '') collate "C") as version, (coalesce('u:' || e."user_id"::text, 'd:' || e."device_id"::text) collate "C") as person, (coalesce(e."country"::text, '') collate "C") as d0, (coalesce(e."channel"::text, '') collate "C") as d1
+    select (case when length(e."event_name"::text) > 128 then left(e."event_name"::text, 127) || '…' else e."event_name"::text end collate "C") as event, (case when e."platform"::text = any($3::text[]) then $4::text when e."platform"::text = any($5::text[]) then $6::text when e."platform"::text = any($7::text[]) then $8::text else $9::text end collate "C") as platform, (case when coalesce(e."app_version"::text, '') = '*' then '' else case when length(coalesce(e."app_version"::text, '')) > 128 then left(coalesce(e."app_version"::text, ''), 127) || '…' else coalesce(e."app_version"::text, '') end end collate "C") as version, (coalesce(case when btrim(e."user_id"::text, E' \t\r\n') <> '' then 'u:' || e."user_id"::text end, case when btrim(e."device_id"::text, E' \t\r\n') <> '' then 'd:' || e."device_id"::text end) collate "C") as person, (case when length(coalesce(e."country"::text, '')) > 128 then left(coalesce(e."country"::text, ''), 127) || '…' else coalesce(e."country"::text, '') end collate "C") as d0, (case when length(coalesce(e."channel"::text, '')) > 128 then left(coalesce(e."channel"::text, ''), 127) || '…' else coalesce(e."channel"::text, '') end collate "C") as d1
     from "analytics"."events" e
-    where e."occurred_at" >= $1 and e."occurred_at" < $2
+    where e."occurred_at" >= $1 and e."occurred_at" < $2 and coalesce(btrim(e."event_name"::text, E' \t\r\n') <> '', false)
   ) r
   group by event, platform, person
 ),
@@ -21,9 +21,9 @@ cells as (
 several_versions as (
   select event, platform, version, count(*) as n, count(distinct person) as people
   from (
-    select (e."event_name"::text collate "C") as event, (case when e."platform"::text = any($10::text[]) then $11::text when e."platform"::text = any($12::text[]) then $13::text when e."platform"::text = any($14::text[]) then $15::text else $16::text end collate "C") as platform, (coalesce(e."app_version"::text, '') collate "C") as version, (coalesce('u:' || e."user_id"::text, 'd:' || e."device_id"::text) collate "C") as person
+    select (case when length(e."event_name"::text) > 128 then left(e."event_name"::text, 127) || '…' else e."event_name"::text end collate "C") as event, (case when e."platform"::text = any($10::text[]) then $11::text when e."platform"::text = any($12::text[]) then $13::text when e."platform"::text = any($14::text[]) then $15::text else $16::text end collate "C") as platform, (case when coalesce(e."app_version"::text, '') = '*' then '' else case when length(coalesce(e."app_version"::text, '')) > 128 then left(coalesce(e."app_version"::text, ''), 127) || '…' else coalesce(e."app_version"::text, '') end end collate "C") as version, (coalesce(case when btrim(e."user_id"::text, E' \t\r\n') <> '' then 'u:' || e."user_id"::text end, case when btrim(e."device_id"::text, E' \t\r\n') <> '' then 'd:' || e."device_id"::text end) collate "C") as person
     from "analytics"."events" e
-    where e."occurred_at" >= $1 and e."occurred_at" < $2
+    where e."occurred_at" >= $1 and e."occurred_at" < $2 and coalesce(btrim(e."event_name"::text, E' \t\r\n') <> '', false)
   ) r
   where (event, platform, coalesce(person, '')) in (select event, platform, several from cells where several is not null)
   group by event, platform, version

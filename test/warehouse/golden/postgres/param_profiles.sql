@@ -3,19 +3,19 @@ with kv as (
          case when r.event = $1::text then kv.key <> all($2::text[]) else true end as tracked,
          kv.value
   from (
-    select (e."event_name"::text collate "C") as event, e."platform"::text as raw_platform, (coalesce(e."app_version"::text, '') collate "C") as version, e."props" as props
+    select (case when length(e."event_name"::text) > 128 then left(e."event_name"::text, 127) || '…' else e."event_name"::text end collate "C") as event, e."platform"::text as raw_platform, (case when coalesce(e."app_version"::text, '') = '*' then '' else case when length(coalesce(e."app_version"::text, '')) > 128 then left(coalesce(e."app_version"::text, ''), 127) || '…' else coalesce(e."app_version"::text, '') end end collate "C") as version, (case when coalesce(jsonb_path_exists(e."props", 'lax $.** ? (@.type() == "number" && (@ >= 1.7976931348623158079372897e308 || @ <= -1.7976931348623158079372897e308))'), false) then null else e."props" end) as props
     from "analytics"."events" e
-    where e."occurred_at" >= $3 and e."occurred_at" < $4 and (e."event_name"::text collate "C") = any($5::text[])
-      and jsonb_typeof(e."props") = 'object'
+    where e."occurred_at" >= $3 and e."occurred_at" < $4 and (case when length(e."event_name"::text) > 128 then left(e."event_name"::text, 127) || '…' else e."event_name"::text end collate "C") = any($5::text[])
+      and jsonb_typeof((case when coalesce(jsonb_path_exists(e."props", 'lax $.** ? (@.type() == "number" && (@ >= 1.7976931348623158079372897e308 || @ <= -1.7976931348623158079372897e308))'), false) then null else e."props" end)) = 'object'
   ) r
-  cross join lateral jsonb_each(r.props) as kv(key, value)
+  cross join lateral (select case when length(j.key) > 128 then left(j.key, 127) || '…' else j.key end as key, j.value from jsonb_each(r.props) j) as kv
 ),
 raw_grouped as (
   select event, raw_platform, version, key, json_type, tracked,
          case when tracked and json_type in ('string', 'number', 'boolean') then left(value #>> '{}', 64) end as value,
          count(*) as n, min(number) as min_number, max(number) as max_number,
          count(*) filter (where number <> trunc(number)) as fractional
-  from (select kv.*, case when json_type = 'number' then (value)::float8 end as number from kv) k
+  from (select kv.*, case when json_type = 'number' then case when abs((value)::numeric) < 2.4703282292062327208828e-324 then 0::float8 else (value)::float8 end end as number from kv) k
   group by 1, 2, 3, 4, 5, 6, 7
 ),
 grouped as (
