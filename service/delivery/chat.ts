@@ -92,7 +92,12 @@ function renderSlack(input: ChatInput): SlackMessage {
     blocks.push(section(`*resolved* ${RESOLVED_MARK} · ${flow} · ${where}\n*${headline}*`));
     blocks.push(section(`${why} It lasted ${lasted}. ${ownersLine(incident.owners, (owner) => chatText(owner, 80))}.`));
   } else {
-    const what = event === 'opened' ? 'opened' : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
+    const what =
+      event === 'opened'
+        ? 'opened'
+        : event === 'still_held_back'
+          ? `still held back, ${incident.daysSeen} days`
+          : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
     fallback = `${severityLabel(incident.severity)} ${what}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*${incident.severity}* ${SEVERITY_MARK[incident.severity]} · ${what} · ${flow} · ${where}\n*${headline}*`));
     // Only a page calls someone: a warn names its owners without notifying them.
