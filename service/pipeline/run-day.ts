@@ -97,9 +97,16 @@ export interface JudgeTarget {
  * daily runs would see them. A day is judged for every flow before its
  * incidents are drawn, in one transaction: one cause seen by several flows
  * (a data delay) is one incident and one message. Live runs and backtests
- * share this code.
+ * share this code. `quiet`: incidents change, no message is queued (a
+ * backfill's old days, see incidents/backfill.ts).
  */
-export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date, target?: JudgeTarget): Promise<FlowJudgement[]> {
+export async function judgeDays(
+  rt: Runtime,
+  days: string[],
+  clock: (day: string) => Date,
+  target?: JudgeTarget,
+  options: { quiet?: boolean } = {},
+): Promise<FlowJudgement[]> {
   if (days.length === 0) return [];
   const historyDays = rt.config.main.judging.history_days;
   const results: FlowJudgement[] = [];
@@ -143,7 +150,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
       // Findings, incidents and their messages change together or not at all.
       await write(async (client) => {
         for (const judgement of judged) await storeJudgement(client, writeSchema, judgement.flow, day, judgement.verdict, judgement.reason, judgement.findings);
-        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day));
+        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), options);
       });
       return judged;
     };
