@@ -151,7 +151,12 @@ export interface CheckInput {
   flow: FlowDefinition;
   /** The day being judged. */
   day: Day;
-  /** Consecutive days of history, oldest first, ending with `day`. */
+  /**
+   * Days of history, oldest first, ending with `day`: consecutive, except that
+   * a silence (days no platform of the flow sent an event) may give up whole
+   * weeks to older days with data (service/pipeline/history.ts, windowDays),
+   * so every day keeps its weekday's place.
+   */
   days: Day[];
   events: EventDayRow[];
   params: ParamDayRow[];

@@ -15,7 +15,11 @@ import { dayStart } from '../time.js';
 import type { CheckInput, DayStatusRow } from '../types.js';
 
 const HOUR_MS = 3_600_000;
-/** Days before the judged one whose hours form the profile (four weeks: every weekday four times). */
+/**
+ * Days whose hours form the profile: the latest this many days with events
+ * before the judged one (four weeks: every weekday four times). Days without
+ * events are passed over, so a silence never becomes the usual.
+ */
 const PROFILE_DAYS = 28;
 /** Fewest usable days for a profile (one week, common practice); with fewer, nothing is said about the day. */
 const MIN_PROFILE_DAYS = 7;
@@ -71,13 +75,12 @@ export interface Profile {
 }
 
 /**
- * Hourly profile of `platform` from the `PROFILE_DAYS` days before the judged
- * day, leaving out `skip` (calendar days and days already found incomplete)
- * and days without events; undefined with fewer than `MIN_PROFILE_DAYS`.
+ * Hourly profile of `platform` from the latest `PROFILE_DAYS` days with events
+ * before the judged day, leaving out `skip` (calendar days and days already
+ * found incomplete); undefined with fewer than `MIN_PROFILE_DAYS`.
  */
 export function hourlyProfile(input: CheckInput, platform: string, skip: ReadonlySet<string>): Profile | undefined {
-  const first = input.days[Math.max(0, input.days.length - 1 - PROFILE_DAYS)]!;
-  const rows = input.status.filter((row) => row.platform === platform && row.day >= first && row.day < input.day && row.events > 0 && !skip.has(row.day));
+  const rows = input.status.filter((row) => row.platform === platform && row.day < input.day && row.events > 0 && !skip.has(row.day)).slice(-PROFILE_DAYS);
   if (rows.length < MIN_PROFILE_DAYS) return undefined;
   const byHour: number[][] = Array.from({ length: 24 }, () => []);
   for (const row of rows) {

@@ -28,6 +28,20 @@ export interface ChatPayload {
 export interface ChatFormat<Payload extends ChatPayload = ChatPayload> {
   id: ChatFormatId;
   render(input: ChatInput): Payload;
+  renderBackfill(input: BackfillInput): Payload;
+}
+
+/** The one message of a backfill judged without chat messages (incidents/backfill.ts). */
+export interface BackfillInput {
+  from: string;
+  to: string;
+  flows: string[];
+  /** Incidents above note the range recorded, muted ones left out. */
+  recorded: number;
+  /** Those still open, most severe first, each with its page. */
+  open: Array<{ incident: Incident; url: string }>;
+  /** The overview page, listing every incident. */
+  overviewUrl: string;
 }
 
 export type SlackMessage = IncomingWebhookSendArguments & { text: string; blocks: NonNullable<IncomingWebhookSendArguments['blocks']> };
@@ -92,7 +106,12 @@ function renderSlack(input: ChatInput): SlackMessage {
     blocks.push(section(`*resolved* ${RESOLVED_MARK} · ${flow} · ${where}\n*${headline}*`));
     blocks.push(section(`${why} It lasted ${lasted}. ${ownersLine(incident.owners, (owner) => chatText(owner, 80))}.`));
   } else {
-    const what = event === 'opened' ? 'opened' : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
+    const what =
+      event === 'opened'
+        ? 'opened'
+        : event === 'still_held_back'
+          ? `still held back, ${incident.daysSeen} days`
+          : `raised${input.previousSeverity ? ` from ${input.previousSeverity}` : ''}`;
     fallback = `${severityLabel(incident.severity)} ${what}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*${incident.severity}* ${SEVERITY_MARK[incident.severity]} · ${what} · ${flow} · ${where}\n*${headline}*`));
     // Only a page calls someone: a warn names its owners without notifying them.
@@ -121,8 +140,32 @@ function renderSlack(input: ChatInput): SlackMessage {
   return { text: fitChat(fallback, 300), blocks, unfurl_links: false, unfurl_media: false };
 }
 
+/** Open incidents listed by name in a backfill's summary; the overview page has the rest. */
+const BACKFILL_LISTED = 20;
+
+function renderSlackBackfill(input: BackfillInput): SlackMessage {
+  const range = `${input.from}..${input.to}`;
+  const counts = `${input.recorded} incident${input.recorded === 1 ? '' : 's'}, ${input.open.length} still open`;
+  const flows = chatText(input.flows.join(', '), 160);
+  const blocks: SlackMessage['blocks'] = [
+    section(
+      `*backfill ${range}* · ${flows}\n${counts}. Days older than the catch-up window were judged without a message each; ` +
+        (input.open.length > 0 ? 'what is still open follows, one message per incident.' : 'nothing is open.'),
+    ),
+  ];
+  if (input.open.length > 0) {
+    const lines = input.open
+      .slice(0, BACKFILL_LISTED)
+      .map(({ incident, url }) => `• ${severityLabel(incident.severity)} ${link(url, cleanText(incident.title, HEADLINE_MAX))} · ${chatText(incident.flows.join(', '), 160)} · since ${incident.since}`);
+    if (input.open.length > BACKFILL_LISTED) lines.push(`and ${input.open.length - BACKFILL_LISTED} more`);
+    blocks.push(section(lines.join('\n')));
+  }
+  blocks.push(section(link(input.overviewUrl, 'Every incident of the backfill')));
+  return { text: fitChat(`backfill ${range}: ${counts}`, 300), blocks, unfurl_links: false, unfurl_media: false };
+}
+
 /** A Slack incoming webhook, Block Kit sections (Slack API reference, "Sending messages using incoming webhooks"). */
-export const slackFormat: ChatFormat<SlackMessage> = { id: 'slack', render: renderSlack };
+export const slackFormat: ChatFormat<SlackMessage> = { id: 'slack', render: renderSlack, renderBackfill: renderSlackBackfill };
 
 /** Every supported format by id: the type demands one for each id `delivery.chat.format` accepts. */
 export const CHAT_FORMATS: Record<ChatFormatId, ChatFormat> = { slack: slackFormat };

@@ -25,12 +25,15 @@ export const STUCK_STATES: readonly OutboxState[] = ['parked', 'unconfirmed'];
 /** Why a message became unconfirmed (shown with it). */
 export const UNCONFIRMED_ERROR =
   'the sender stopped between posting and recording the answer; the message may have been shown, so it is not posted again on its own';
+/** What a message announces: an incident event, or the one summary of a backfill (no incident). */
+export type OutboxEvent = IncidentEvent | 'backfill';
 
 export interface OutboxMessage {
   id: number;
   channel: 'chat';
-  incidentId: string;
-  event: IncidentEvent;
+  /** Null for a backfill's summary. */
+  incidentId: string | null;
+  event: OutboxEvent;
   day: string;
   idempotencyKey: string;
   payload: ChatPayload;
@@ -80,6 +83,22 @@ export async function enqueueChat(
   return rowCount === 1;
 }
 
+/** Queues the summary of a backfill judged without messages, once per range; returns whether it was added. */
+export async function enqueueBackfillSummary(
+  client: pg.ClientBase,
+  schema: string,
+  message: { from: string; to: string; payload: ChatPayload; summary: string },
+  now: Date,
+): Promise<boolean> {
+  const { rowCount } = await client.query({
+    text: `insert into ${quoteIdent(schema)}.outbox (channel, incident_id, event, day, idempotency_key, payload, summary, next_attempt_at, created_at)
+      values ('chat', null, 'backfill', $1, $2, $3, $4, $5, $5)
+      on conflict (idempotency_key) do nothing`,
+    values: [message.to, `plumbline.backfill.${message.from}.${message.to}`, JSON.stringify(message.payload), message.summary, now],
+  });
+  return rowCount === 1;
+}
+
 /** Withdraws messages of an incident event that nobody has tried to send yet (a rerun changed its mind). */
 export async function withdrawPending(client: pg.ClientBase, schema: string, incidentId: string, event: IncidentEvent): Promise<void> {
   await client.query({
@@ -91,7 +110,8 @@ export async function withdrawPending(client: pg.ClientBase, schema: string, inc
 /**
  * Claims the oldest due chat message (several senders may run: `skip locked`
  * lets each take a different one). A message waits while an earlier message
- * of the same incident is unsent, so "resolved" never overtakes "opened", and
+ * of the same incident or an earlier backfill summary is unsent, so "resolved"
+ * never overtakes "opened" and a backfill's summary comes first, and
  * while the channel is paused by a receiver's `Retry-After`. A `sending`
  * message whose lease has passed (database time) was left by a sender that
  * died: it is claimed again, keeping its idempotency key, only when
@@ -116,7 +136,7 @@ export async function claimNext(
         where o.channel = 'chat'
           and ((o.state = 'pending' and (o.attempts = 0 or o.next_attempt_at <= $1)) or (o.state = 'sending' and $4 and o.lease_until <= now()))
           and not exists (
-            select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending'))
+            select 1 from ${s}.outbox e where (e.incident_id = o.incident_id or e.incident_id is null) and e.id < o.id and e.state in ('pending', 'sending'))
           and not exists (select 1 from ${s}.channel_pauses p where p.channel = o.channel and p.until > $1)
         order by o.id
         limit 1
@@ -182,7 +202,7 @@ export async function nextDue(pool: pg.Pool, schema: string, now: Date): Promise
     text: `with due as (
         select min(case when o.state = 'sending' or o.attempts = 0 then $1 else o.next_attempt_at end) as at
         from ${s}.outbox o where o.channel = 'chat' and o.state in ('pending', 'sending')
-          and not exists (select 1 from ${s}.outbox e where e.incident_id = o.incident_id and e.id < o.id and e.state in ('pending', 'sending')))
+          and not exists (select 1 from ${s}.outbox e where (e.incident_id = o.incident_id or e.incident_id is null) and e.id < o.id and e.state in ('pending', 'sending')))
       select case when due.at is null then null else greatest(due.at, (select p.until from ${s}.channel_pauses p where p.channel = 'chat')) end as due
       from due`,
     values: [now],

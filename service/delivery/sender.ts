@@ -249,7 +249,7 @@ async function post(url: string, message: OutboxMessage, timeoutMs: number, now:
 /** The demo's delivery: one JSON file per message, named by outbox id so a rewrite after a crash replaces the same file. */
 async function writeToFolder(folder: string, message: OutboxMessage): Promise<PostOutcome> {
   await mkdir(folder, { recursive: true });
-  const file = join(folder, `${String(message.id).padStart(6, '0')}-${message.incidentId}-${message.event}.json`);
+  const file = join(folder, `${String(message.id).padStart(6, '0')}-${message.incidentId ?? 'all'}-${message.event}.json`);
   const body = { idempotencyKey: message.idempotencyKey, incident: message.incidentId, event: message.event, day: message.day, payload: message.payload };
   await writeFile(`${file}.tmp`, `${JSON.stringify(body, null, 2)}\n`);
   await rename(`${file}.tmp`, file);

@@ -46,7 +46,8 @@ export async function prepareDemo(rt: Runtime, options: { quiet?: boolean; dir?:
     await rt.state.query(`drop table ${quoteQualified(rt.mapping.table)}`);
   }
   const judgedFrom = addDays(DEMO_FROM, DEMO_WARM_UP_DAYS);
-  await runRange(rt, DEMO_FROM, DEMO_TO, { json: options.quiet ?? false, judgeFrom: judgedFrom });
+  // The demo shows what the daily runs would have said over these months: every message, not a backfill's summary.
+  await runRange(rt, DEMO_FROM, DEMO_TO, { json: options.quiet ?? false, judgeFrom: judgedFrom, announce: true });
   const groundTruthPath = await writeGroundTruth(options.dir ?? DEMO_DIR);
   return { from: DEMO_FROM, to: DEMO_TO, judgedFrom, events: generated.events, groundTruthPath, millis: performance.now() - started };
 }

@@ -60,7 +60,9 @@ const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
  * Applies the incident drafts of one judged day of `flows` (every flow judged
  * that day), inside the caller's transaction (after the day's verdicts are
  * stored in `judged_days`). `now` is the run's clock: it stamps rows and
- * measures the wait between messages (`incidents.repeat_after`).
+ * measures the wait between messages (`incidents.repeat_after`). With
+ * `quiet` (a backfill's days older than the catch-up window) incidents change
+ * as usual but no message is queued: history is not news.
  */
 export async function applyIncidentDrafts(
   client: pg.ClientBase,
@@ -70,6 +72,7 @@ export async function applyIncidentDrafts(
   drafts: readonly IncidentDraft[],
   policy: IncidentPolicy,
   now: Date,
+  options: { quiet?: boolean } = {},
 ): Promise<IncidentChanges> {
   for (const draft of drafts) {
     const stranger = draft.flows.find((flow) => !flows.includes(flow));
@@ -140,6 +143,7 @@ export async function applyIncidentDrafts(
   await refreshFromSightings(client, s, [...touched], now);
   const resolved = await settle(client, schema, flows, day, [...touched], policy, now);
   changes.resolved = resolved.map((incident) => incident.id);
+  if (options.quiet) return changes;
   changes.queued += await announceResolved(client, schema, resolved, policy, now);
   changes.queued += await announceSeen(client, schema, [...seen], day, policy, now);
   return changes;
@@ -224,7 +228,7 @@ async function announceResolved(client: pg.ClientBase, schema: string, incidents
   let queued = 0;
   for (const incident of incidents) {
     if (incident.notifiedSeverity === null) continue;
-    if (await queue(client, schema, 'resolved', incident, incident.resolvedDay!, policy, now)) queued++;
+    if (await queueIncidentMessage(client, schema, 'resolved', incident, incident.resolvedDay!, policy, now)) queued++;
   }
   return queued;
 }
@@ -232,34 +236,45 @@ async function announceResolved(client: pg.ClientBase, schema: string, incidents
 /**
  * Announces the unresolved, unmuted incidents above `note` seen on the day: "opened" the
  * first time, "severity raised" when the severity is above what was last
- * announced and `incidents.repeat_after` has passed since that announcement
- * (a rise sooner than that is announced once the wait is over, if it holds).
+ * announced, "still held back" when a data delay has been seen on twice as
+ * many days as when it was last announced (2, 4, 8, ... days: a silence is
+ * told as it grows, without a message every day); a repeat waits until
+ * `incidents.repeat_after` has passed since the last announcement (a rise
+ * sooner than that is announced once the wait is over, if it holds).
  */
 async function announceSeen(client: pg.ClientBase, schema: string, ids: string[], day: Day, policy: IncidentPolicy, now: Date): Promise<number> {
   if (ids.length === 0) return 0;
   const s = quoteIdent(schema);
+  const { rows } = await client.query<{ id: string; days: number | null }>({
+    text: `select id, notified_days_seen as days from ${s}.incidents where id = any($1)`,
+    values: [ids],
+  });
+  const announcedDays = new Map(rows.map((row) => [row.id, row.days]));
   let queued = 0;
   for (const incident of await loadIncidents(client, schema, ids)) {
     // A note is recorded and shown in the digest, never sent to chat: an incident speaks once a sighting reaches warn.
     if (incident.muted || incident.status === 'resolved' || incident.severity === 'note') continue;
+    const waited = incident.lastNotifiedAt === null || now.getTime() - Date.parse(incident.lastNotifiedAt) >= policy.repeatAfterSeconds * 1000;
     let event: IncidentEvent;
     if (incident.notifiedSeverity === null) event = 'opened';
-    else if (
-      SEVERITY_RANK[incident.severity] > SEVERITY_RANK[incident.notifiedSeverity] &&
-      (incident.lastNotifiedAt === null || now.getTime() - Date.parse(incident.lastNotifiedAt) >= policy.repeatAfterSeconds * 1000)
-    ) {
-      event = 'severity_raised';
-    } else continue;
-    if (await queue(client, schema, event, incident, day, policy, now)) queued++;
-    await client.query({
-      text: `update ${s}.incidents set notified_severity = severity, last_notified_at = $2 where id = $1`,
-      values: [incident.id, now],
-    });
+    else if (SEVERITY_RANK[incident.severity] > SEVERITY_RANK[incident.notifiedSeverity] && waited) event = 'severity_raised';
+    else if (incident.causeLabel === 'data_delay' && incident.daysSeen >= 2 * (announcedDays.get(incident.id) ?? incident.daysSeen) && waited) event = 'still_held_back';
+    else continue;
+    if (await queueIncidentMessage(client, schema, event, incident, day, policy, now)) queued++;
+    await markAnnounced(client, schema, incident.id, now);
   }
   return queued;
 }
 
-async function queue(client: pg.ClientBase, schema: string, event: IncidentEvent, incident: Incident, day: Day, policy: IncidentPolicy, now: Date): Promise<boolean> {
+/** Records that an incident's current severity and length were announced at `now`. */
+export async function markAnnounced(client: pg.ClientBase, schema: string, id: string, now: Date): Promise<void> {
+  await client.query({
+    text: `update ${quoteIdent(schema)}.incidents set notified_severity = severity, notified_days_seen = days_seen, last_notified_at = $2 where id = $1`,
+    values: [id, now],
+  });
+}
+
+export async function queueIncidentMessage(client: pg.ClientBase, schema: string, event: IncidentEvent, incident: Incident, day: Day, policy: IncidentPolicy, now: Date): Promise<boolean> {
   const sighting = (await latestSightings(client, schema, [incident.id])).get(incident.id);
   const values = await loadValuePolicy(client, schema, policy.hideValues, paramKeysOf(sighting?.symptoms ?? []), incident.since, incident.lastSeenDay);
   const presentation = presentIncident(incident, sighting, values);

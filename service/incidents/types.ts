@@ -7,8 +7,8 @@ import type { Day, Finding, Severity } from '../../checks/types.js';
 import type { ChatFormatId } from '../config/schema.js';
 
 export type IncidentStatus = 'open' | 'ongoing' | 'resolved';
-/** What a chat message announces. */
-export type IncidentEvent = 'opened' | 'severity_raised' | 'resolved';
+/** What a chat message about an incident announces (`still_held_back`: a data delay that goes on, see incidents/apply.ts). */
+export type IncidentEvent = 'opened' | 'severity_raised' | 'still_held_back' | 'resolved';
 
 export interface Incident {
   /** Stable and URL-safe: the page is `${http.public_url}/incidents/${id}`. */

@@ -1,9 +1,9 @@
 import type pg from 'pg';
 import type { CalendarDay, CheckInput, DayStatusRow, EventDayRow, FlowDefinition, FunnelDayRow, ParamDayRow, StepDayRow } from '../../checks/types.js';
-import { addDays, expandCalendar } from '../config/definitions.js';
+import { addDays, daysBetween, expandCalendar } from '../config/definitions.js';
 import type { CalendarEntry } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
-import { selectDayStatus, selectEventDays, selectFunnelDays, selectParamDays, selectStepDays } from '../state/rollups.js';
+import { selectDataDaysStart, selectDayStatus, selectEventDays, selectFunnelDays, selectParamDays, selectStepDays } from '../state/rollups.js';
 
 /** Rollup rows of one flow over a range of days, loaded once and sliced per judged day. */
 export interface FlowHistory {
@@ -16,6 +16,20 @@ export interface FlowHistory {
   steps: StepDayRow[];
   status: DayStatusRow[];
   calendar: CalendarDay[];
+  /** Days on which any platform of the flow sent an event. */
+  dataDays: Set<string>;
+}
+
+/**
+ * Where the history of judged days from `firstJudged` on must start: the
+ * usual `historyDays` before it, or earlier when a silence took some of those
+ * days, so the first judged day still finds `historyDays` days with data.
+ */
+export async function historyStart(state: pg.Pool | pg.ClientBase, schema: string, flow: FlowDefinition, firstJudged: string, historyDays: number): Promise<string> {
+  const usual = addDays(firstJudged, -(historyDays - 1));
+  const { rows } = await state.query<{ day: string | null }>(selectDataDaysStart(schema, flow.platforms, firstJudged, historyDays - 1));
+  const start = rows[0]?.day ?? null;
+  return start !== null && start < usual ? start : usual;
 }
 
 export async function loadHistory(
@@ -34,10 +48,13 @@ export async function loadHistory(
   const status = await state.query<Omit<DayStatusRow, 'newestAt' | 'rolledUpAt'> & { newestAt: Date | null; rolledUpAt: Date }>(
     selectDayStatus(schema, from, to),
   );
+  const platforms = new Set(flow.platforms);
+  const dataDays = new Set(status.rows.filter((row) => row.events > 0 && platforms.has(row.platform)).map((row) => row.day));
   return {
     flow,
     from,
     to,
+    dataDays,
     events: events.rows,
     params: params.rows,
     funnel: funnel.rows,
@@ -47,7 +64,31 @@ export async function loadHistory(
   };
 }
 
-/** The check input for `day`: the `historyDays` days ending with it. Rows must be sorted by day. */
+/**
+ * The days of `day`'s window, oldest first: the `historyDays` days ending with
+ * it, except that a silence (days on which no platform of the flow sent an
+ * event, with data on both sides) gives up its whole weeks to days before it.
+ * Baselines then learn from days with data however long a silence lasts, and
+ * every day keeps its weekday's place (seasonal baselines are weekly). Silent
+ * days before the first day with data are no silence: the app had not started
+ * sending yet, and the window is the plain one.
+ */
+export function windowDays(day: string, historyDays: number, dataDays: ReadonlySet<string>, earliest: string): string[] {
+  const kept = [day];
+  let silence: string[] = [];
+  for (let d = addDays(day, -1); d >= earliest && kept.length < historyDays; d = addDays(d, -1)) {
+    if (!dataDays.has(d)) {
+      silence.push(d);
+      continue;
+    }
+    kept.push(...silence.slice(0, silence.length % 7), d);
+    silence = [];
+  }
+  kept.push(...silence);
+  return kept.slice(0, historyDays).reverse();
+}
+
+/** The check input for `day`: its window of `historyDays` days (see windowDays). Rows must be sorted by day. */
 export function sliceInput(
   history: FlowHistory,
   day: string,
@@ -57,11 +98,15 @@ export function sliceInput(
   timezone: string,
   hideValues = false,
 ): CheckInput {
-  const from = addDays(day, -(historyDays - 1));
-  // Rows come sorted by day: the window is one slice, found by binary search.
-  const within = <T extends { day: string }>(rows: T[]) => rows.slice(firstAtOrAfter(rows, from), firstAtOrAfter(rows, addDays(day, 1)));
-  const days: string[] = [];
-  for (let d = from; d <= day; d = addDays(d, 1)) days.push(d);
+  const days = windowDays(day, historyDays, history.dataDays, history.from);
+  const from = days[0]!;
+  const skipped = days.length !== daysBetween(from, day).length;
+  const inWindow = new Set(skipped ? days : []);
+  // Rows come sorted by day: the window is one slice, found by binary search, less the silent weeks it skipped.
+  const within = <T extends { day: string }>(rows: T[]) => {
+    const slice = rows.slice(firstAtOrAfter(rows, from), firstAtOrAfter(rows, addDays(day, 1)));
+    return skipped ? slice.filter((row) => inWindow.has(row.day)) : slice;
+  };
   return {
     flow: history.flow,
     day,

@@ -24,6 +24,11 @@ export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly C
 
   let verdict: Judgement['verdict'] = 'judged';
   let reason: string | undefined;
+  // A day without a single event is no evidence that all is well: it is held back whatever the checks say.
+  if (!input.status.some((row) => row.day === input.day && row.events > 0 && input.flow.platforms.includes(row.platform))) {
+    verdict = 'not_ready';
+    reason = `no events at all for ${input.day}`;
+  }
   for (const { check, options } of active) {
     if (!check.gate) continue;
     try {

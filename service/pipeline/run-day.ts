@@ -10,7 +10,7 @@ import type { DayRange } from '../warehouse/engine.js';
 import type { Runtime } from '../runtime.js';
 import { applyIncidentDrafts, incidentPolicy } from '../incidents/apply.js';
 import { storeJudgement } from '../state/findings.js';
-import { loadAnomalousDays, loadHistory, sliceInput } from './history.js';
+import { historyStart, loadAnomalousDays, loadHistory, sliceInput } from './history.js';
 import { judgeDay, type Judgement } from './judge.js';
 
 export interface FlowJudgement extends Judgement {
@@ -97,12 +97,18 @@ export interface JudgeTarget {
  * daily runs would see them. A day is judged for every flow before its
  * incidents are drawn, in one transaction: one cause seen by several flows
  * (a data delay) is one incident and one message. Live runs and backtests
- * share this code.
+ * share this code. `quiet`: incidents change, no message is queued (a
+ * backfill's old days, see incidents/backfill.ts).
  */
-export async function judgeDays(rt: Runtime, days: string[], clock: (day: string) => Date, target?: JudgeTarget): Promise<FlowJudgement[]> {
+export async function judgeDays(
+  rt: Runtime,
+  days: string[],
+  clock: (day: string) => Date,
+  target?: JudgeTarget,
+  options: { quiet?: boolean } = {},
+): Promise<FlowJudgement[]> {
   if (days.length === 0) return [];
   const historyDays = rt.config.main.judging.history_days;
-  const from = addDays(days[0]!, -(historyDays - 1));
   const results: FlowJudgement[] = [];
   const policy = incidentPolicy(rt.config.main);
   const writeSchema = target?.schema ?? rt.stateSchema;
@@ -124,6 +130,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
   const loadFlow = async (config: FlowConfig) => {
     const flow = rt.flows.find((f) => f.id === config.flow)!;
     const calendar = [...rt.config.main.calendar, ...config.calendar];
+    const from = await historyStart(reader, rt.stateSchema, flow, days[0]!, historyDays);
     const history = await loadHistory(reader, rt.stateSchema, flow, calendar, from, days[days.length - 1]!);
     // Days before the window keep the verdicts the live runs gave them.
     const anomalous = await loadAnomalousDays(reader, rt.stateSchema, flow.id, from, days[0]!);
@@ -143,7 +150,7 @@ export async function judgeDays(rt: Runtime, days: string[], clock: (day: string
       // Findings, incidents and their messages change together or not at all.
       await write(async (client) => {
         for (const judgement of judged) await storeJudgement(client, writeSchema, judgement.flow, day, judgement.verdict, judgement.reason, judgement.findings);
-        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day));
+        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), options);
       });
       return judged;
     };

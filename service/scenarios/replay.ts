@@ -19,7 +19,8 @@ import { quoteIdent } from '../db/sql.js';
 import { latestSightings, listIncidents } from '../incidents/store.js';
 import { createLogger } from '../log.js';
 import { createMetrics } from '../metrics.js';
-import { judgeDays, replayClock, rollupRange } from '../pipeline/run-day.js';
+import { runRange } from '../cli/commands/run.js';
+import { judgeDays, rollupRange } from '../pipeline/run-day.js';
 import { Runner } from '../runner/runner.js';
 import { openRuntime, type Runtime } from '../runtime.js';
 import { findingsQuery, judgedDaysQuery } from '../state/summary.js';
@@ -119,9 +120,9 @@ export async function replayScenario(seed: number, options: ReplayOptions): Prom
 
     rt = await openRuntime(config, { env: { [EVAL_URL_VARIABLE]: options.url }, log: createLogger({ level: 'error' }), poolSize: 3 });
     started = performance.now();
-    const installed = Array.from({ length: scenario.backfillDays }, (_, i) => dayOf(scenario, i));
-    await rollupRange(rt, installed);
-    await judgeDays(rt, installed, replayClock(rt));
+    // The install: `plumbline run --from --to` over the first days, on the morning after the last of them.
+    const installedTo = dayOf(scenario, scenario.backfillDays - 1);
+    await runRange(rt, scenario.from, installedTo, { json: true, now: passClock(scenario, installedTo) });
     const backfill = (performance.now() - started) / 1000;
 
     started = performance.now();

@@ -185,3 +185,17 @@ export function selectDayStatus(schema: string, from: string, to: string): Query
     values: [from, to],
   };
 }
+
+/**
+ * The earliest of the latest `count` days before `before` on which any of
+ * `platforms` sent an event (null without one): where a history must start to
+ * hold `count` days with data, however long the silences between them.
+ */
+export function selectDataDaysStart(schema: string, platforms: readonly string[], before: string, count: number): Query {
+  return {
+    text: `select ${isoDay('min(day)')} as day from (
+        select day from ${quoteIdent(schema)}.day_status where day < $1 and platform = any($2) and events > 0
+        group by day order by day desc limit $3) as latest`,
+    values: [before, platforms, count],
+  };
+}

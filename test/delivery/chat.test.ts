@@ -13,7 +13,7 @@ import { HIDE_ALL_VALUES, loadValuePolicy, type ValuePolicy } from '../../servic
 import { chatText, cleanText, clip, escapeChat, fitChat } from '../../service/delivery/text.js';
 import { migrate } from '../../service/db/migrate.js';
 import { loadIncident } from '../../service/incidents/store.js';
-import { incidentUrl, type Incident, type Sighting } from '../../service/incidents/types.js';
+import { incidentUrl, type Incident, type IncidentEvent, type Sighting } from '../../service/incidents/types.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
 import { MENTION, OWNER, POLICY, draft, judge, outboxRows, type DraftOptions } from '../incidents/fixtures.js';
 import { testMain } from './fixtures.js';
@@ -55,7 +55,7 @@ function incidentFrom(options: DraftOptions): { incident: Incident; sighting: Si
   return { incident, sighting: { incidentId: incident.id, flows: d.flows, day: d.day, since: d.since, severity: d.severity, muted: false, title: d.title, cause: d.cause, symptoms: d.symptoms } };
 }
 
-function render(options: DraftOptions, event: 'opened' | 'resolved' = 'opened', values: ValuePolicy = SHOW_ALL): { message: SlackMessage; incident: Incident } {
+function render(options: DraftOptions, event: IncidentEvent = 'opened', values: ValuePolicy = SHOW_ALL): { message: SlackMessage; incident: Incident } {
   const { incident, sighting } = incidentFrom(options);
   const resolved: Incident = event === 'resolved' ? { ...incident, status: 'resolved', resolvedDay: '2026-11-21', resolution: 'clean_days' } : incident;
   const message = slackFormat.render({
@@ -139,9 +139,28 @@ describe('chat message', () => {
         evidence: { value, first_seen: '2026-11-16', adoption_share: 0.41 },
         platform: 'android',
       };
-      for (const event of ['opened', 'resolved'] as const) {
+      for (const event of ['opened', 'still_held_back', 'resolved'] as const) {
         const { message, incident } = render(options, event);
         expectInert(message, incident, value);
+      }
+    });
+
+    it(`renders the hostile "${name}" string inert in a backfill's summary`, () => {
+      const { incident } = render({ day: '2026-11-18', event: value, subject: value, title: `${value} stopped`, platform: 'android' }, 'opened');
+      const url = incidentUrl(POLICY.publicUrl, incident.id);
+      const message = slackFormat.renderBackfill({ from: '2026-07-01', to: '2026-11-18', flows: [value], recorded: 3, open: [{ incident, url }], overviewUrl: POLICY.publicUrl });
+      // The links are ours; the title inside one is escaped text: no markup, no mention, no address.
+      const links = texts(message).flatMap(({ text }) => text.match(/<[^<>]*>/g) ?? []);
+      expect(links.length).toBe(2);
+      for (const link of links) {
+        expect(link.startsWith(`<${url}|`) || link.startsWith(`<${POLICY.publicUrl}|`), link).toBe(true);
+        expect(link.slice(link.indexOf('|')), link).not.toMatch(/@(channel|here|everyone)|:\/\//);
+      }
+      for (const { text, limit } of texts(message)) {
+        const bare = links.reduce((acc, link) => acc.replace(link, ''), text);
+        expect(bare, text).not.toMatch(/[<>]|@(channel|here|everyone)|:\/\//);
+        expect(FORBIDDEN_CHARS.test(text), text).toBe(false);
+        expect(text.length).toBeLessThanOrEqual(limit);
       }
     });
   }

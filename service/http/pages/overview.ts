@@ -218,7 +218,7 @@ function messageRows(messages: OutboxMessage[], when: (m: OutboxMessage) => stri
   return messages.map((m) => ({
     cells: [
       String(m.id),
-      incidentLink(ROOT, m.incidentId, m.incidentId),
+      m.incidentId === null ? escapeHtml('(backfill summary)') : incidentLink(ROOT, m.incidentId, m.incidentId),
       escapeHtml(m.event),
       dayText(m.day),
       clientText(m.summary, SENTENCE_MAX),
