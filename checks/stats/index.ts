@@ -3,6 +3,8 @@
  * beside this file for the list, the conventions for missing and zero days, and
  * the tests against outside references). Checks import from here.
  */
+export { benjaminiHochberg } from './benjamini-hochberg.js';
+export type { BenjaminiHochbergResult } from './benjamini-hochberg.js';
 export { chiSquareHomogeneity } from './chi-square-homogeneity.js';
 export { criticalValue, predictDayProportion } from './day-proportion.js';
 export type { DayProportionPrediction } from './day-proportion.js';
