@@ -3,6 +3,7 @@ import { freshnessCheck } from './freshness/index.js';
 import { parityCheck } from './parity/index.js';
 import { schemaCheck } from './schema/index.js';
 import { seasonalCheck } from './seasonal/index.js';
+import { segmentsCheck } from './segments/index.js';
 import type { CheckModule } from './types.js';
 import { volumeCheck } from './volume/index.js';
 
@@ -16,6 +17,7 @@ export const registry: readonly CheckModule[] = [
   volumeCheck,
   seasonalCheck,
   conversionCheck,
+  segmentsCheck,
   schemaCheck,
   parityCheck,
 ];

@@ -5,7 +5,7 @@
  */
 import normalCdf from '@stdlib/stats-base-dists-normal-cdf';
 import { formatCount, formatNumber, formatPercent } from '../messages.js';
-import { explain, type ValueChange } from '../stats/explanatory-power.js';
+import { explain, scoreValues, type ValueChange } from '../stats/explanatory-power.js';
 import { rateComparison } from '../stats/rate-comparison.js';
 import { twoProportionZ } from '../stats/two-proportion-z.js';
 import { weekday } from '../time.js';
@@ -163,6 +163,11 @@ export interface Attribution {
 }
 
 export function attribute(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution {
+  // A `segments` finding already compares one value with the rest of its dimension on the same platform and day:
+  // a release, a platform or a pipeline fault moves every value alike and never shows there.
+  if (finding.check === 'segments') {
+    return (announced(finding, input) ? calendar(finding, input) : undefined) ?? namedSegment(finding, input) ?? behaviour(finding, input);
+  }
   return (
     dataDelay(finding, input, dayFindings) ??
     release(finding, input) ??
@@ -200,6 +205,8 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   );
   const expected = input.flow.events.length * input.flow.platforms.length;
   if (expected < 2 || moved.size < Math.ceil(CAUSE_THRESHOLDS.movedTogetherShare * expected)) return undefined;
+  // A stopped pipeline moves every dimension value alike; one value that moved apart from the rest is a segment.
+  if (segment(finding, input)) return undefined;
   return {
     groupKey: 'data_delay',
     cause: {
@@ -428,6 +435,47 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
         restChange: outsideChange,
         z,
       },
+    },
+  };
+}
+
+/**
+ * The cause of a `segments` finding: its dimension value. When the explanatory power and surprise ranking of
+ * the same measure (`segment`, as for a finding about the total) names that value too, its explanation is
+ * taken as it is, so a value's drop that also moved the total is one incident.
+ */
+function namedSegment(finding: Finding, input: CheckInput): Attribution | undefined {
+  const evidence = finding.evidence ?? {};
+  const dimension = String(evidence.dimension ?? '');
+  const value = String(evidence.value ?? '');
+  if (dimension === '' || typeof evidence.expected !== 'number' || typeof evidence.rest !== 'number') return undefined;
+  const ranked = segment(finding, input);
+  if (ranked?.cause.segment?.dimension === dimension && ranked.cause.segment.value.split(', ').includes(value)) return ranked;
+  const conversion = finding.metric === 'end_to_end_conversion';
+  const entering = Number(evidence.entering ?? 0);
+  // Conversion is sized in completions: the value's expected and actual ones beside the rest's.
+  const forecast = conversion ? entering * evidence.expected : evidence.expected;
+  const actual = conversion ? entering * finding.observed : finding.observed;
+  const [scored] = scoreValues([
+    { value, forecast: Math.max(0, forecast), actual: Math.max(0, actual) },
+    { value: '(rest)', forecast: evidence.rest, actual: evidence.rest },
+  ]);
+  const usualShare = Number(evidence.usualShare);
+  const lost = Number(evidence.lost);
+  const lostShare = Number(evidence.lostShare);
+  const what = conversion ? 'completions' : 'people';
+  return {
+    groupKey: `segment|${dimension}=${value}`,
+    cause: {
+      label: 'segment',
+      confidence: Math.min(0.95, Math.max(0.5, 1 - 1 / Math.max(1, Math.abs(finding.score)))),
+      sentence: `${dimension} = ${value} (usually ${formatPercent(usualShare, 0)} of the flow's ${conversion ? 'people entering' : 'people'}) lost ${formatCount(Math.max(0, lost))} ${what} on ${input.day}, ${formatPercent(lostShare)} of the flow's: ${
+        conversion ? `${formatPercent(finding.observed)} converted against ${formatPercent(evidence.expected)}` : `${formatCount(finding.observed)} against ${formatCount(evidence.expected)}`
+      } expected from its usual share beside the rest of the flow`,
+      platform: finding.platform,
+      version: null,
+      segment: { dimension, value, explanatoryPower: scored!.ep, surprise: scored!.surprise },
+      evidence: { measure: finding.metric, dimension, values: value, usualShare, lost, lostShare, explanatoryPower: scored!.ep, surprise: scored!.surprise, z: finding.score },
     },
   };
 }

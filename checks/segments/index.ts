@@ -1,0 +1,482 @@
+/**
+ * `segments`: each value of each configured dimension (`warehouse.dimensions`,
+ * e.g. `country = CA`) watched on its own, so a collapse inside one value
+ * that moves the flow's total less than the total's thresholds is still seen.
+ *
+ * Series, per dimension value, on each platform and on all platforms together:
+ * people entering the flow (the entry step, funnel step 0), end-to-end
+ * conversion (flows of more than one step) and people sending each watched
+ * event. Rows: the rollups' per-dimension-value rows (all versions).
+ *
+ * Method, per series of one value:
+ * - The value is judged against the rest of its dimension (every other value
+ *   together) on the same day: y = log((people + 1) / (rest + 1)) for people,
+ *   the log odds ratio of the value's conversion to the rest's for
+ *   conversion. A move of everyone at once (a holiday, a platform's tracking,
+ *   a late load) leaves y where it was: those are the totals' checks' to
+ *   report, and a release or a platform break never reads as a segment here.
+ * - Expectation: y's median on the same weekday over the last four usable
+ *   weeks (looking back up to sixteen when recent weeks were left out), as
+ *   `volume` (`weekdayBaseline` in checks/stats); the expected people are the
+ *   rest's people today times that usual ratio ("the value's own weekday
+ *   expectation", given how the rest of the flow did today). Calendar days and
+ *   days already flagged for the series never enter the baseline.
+ * - Spread: 1.4826 MAD of y minus its expectation over the last eight weeks,
+ *   floored at the Poisson (people) or binomial (conversion) noise of today's
+ *   counts on the log scale; score z = (y - expected) / spread; one-sided
+ *   p-value for a drop from Student's t on (days in the spread - 1) degrees of
+ *   freedom (the spread is estimated; common practice). A value needs
+ *   MIN_SPREAD_DAYS of history before it is judged.
+ * - Multiple testing: every value x series x platform judged on the day is one
+ *   test of one family, the flow's; Benjamini-Hochberg at
+ *   `false_discovery_rate` (checks/stats/benjamini-hochberg.ts) keeps the
+ *   expected share of false findings among those reported at that rate.
+ * - Floors, as `volume`: expected people at least `min_people` (conversion:
+ *   people entering the value that day); a drop of more than `max_drop`
+ *   against expectation; |z| at least `min_score`. Only drops are reported:
+ *   a value gaining people is rarely a breakage.
+ * - Cardinality: a dimension with more than `max_values` values is watched on
+ *   its `max_values` largest by people over the history (the rest still count
+ *   in each value's "rest").
+ * - All platforms together speak for a series of a value only when no single
+ *   platform's series of it was reported (as `conversion`).
+ *
+ * Severity, by the share of the flow's people lost (not the relative drop
+ * inside the value): people lost = expected - observed (conversion: the
+ * completions lost, people entering x (expected - observed rate)), over the
+ * flow's expected people of that series on that platform; `page_loss` or more
+ * is page, `warn_loss` or more warn, less a note. On a declared low calendar
+ * day a drop is a note carrying the calendar's note.
+ *
+ * Finding: observed = the value's people (conversion: its rate), expected =
+ * the expectation above with the band of values that would not be reported;
+ * score = z. Evidence: dimension, value, its usual share, the people lost and
+ * their share of the flow, p-value and BH-adjusted p-value, tests in the
+ * family. The cause analysis labels it `segment`, naming the value.
+ */
+import { z } from 'zod';
+import { formatCount, formatNumber, formatPercent, renderMessage } from '../messages.js';
+import { optionsFor, percent } from '../options.js';
+import { anomalousSince, calendarSeverity } from '../findings.js';
+import { conversionSettled } from '../funnel.js';
+import { baselineExclusions, excerpt } from '../series.js';
+import { benjaminiHochberg, robustLocationScale, tCdf, weekdayBaseline } from '../stats/index.js';
+import { weekday } from '../time.js';
+import { ALL_VERSIONS, type CheckInput, type CheckModule, type Finding, type Severity, type WithPlatforms } from '../types.js';
+
+export const options = z.strictObject({
+  max_drop: percent()
+    .default(0.3)
+    .describe("A value with more than this share fewer people (or a lower conversion) than its usual share of the flow predicts is a drop."),
+  min_people: z.number().int().min(1).default(50).describe('Values expected to have fewer people than this on the day (conversion: fewer entering) are not judged.'),
+  min_score: z
+    .number()
+    .min(0)
+    .default(4)
+    .describe("Least robust z of the value's ratio to the rest of the flow: a drop must also stand out from that ratio's own day-to-day noise."),
+  false_discovery_rate: z
+    .number()
+    .gt(0)
+    .lt(1)
+    .default(0.01)
+    .describe('Benjamini-Hochberg level over every value x series x platform of the flow judged on a day.'),
+  max_values: z.number().int().min(1).default(50).describe("A dimension with more values than this is watched on its largest ones by people only."),
+  warn_loss: percent().default(0.02).describe("A drop losing at least this share of the flow's people is a warn; smaller ones are notes."),
+  page_loss: percent().default(0.3).describe("A drop losing at least this share of the flow's people is a page."),
+});
+type Options = z.output<typeof options>;
+
+const messages = {
+  drop: '{platform} {dimension} = {value}, {subject}: {observed} people on {day}, {change} below the {expected} its usual {share} of the flow predicts ({lost} people, {lost_share} of the flow; since {since}){calendar}',
+  conversion_drop:
+    '{platform} {dimension} = {value}, end-to-end conversion {observed} on {day} against {expected} usual beside the rest of the flow ({entering} people entering, {lost} completions lost, {lost_share} of the flow; since {since}){calendar}',
+};
+
+/** Fewest history days of the value's ratio behind a spread (two weeks: no judgement in a flow's first four weeks of rollups). */
+const MIN_SPREAD_DAYS = 14;
+/** History days whose residuals give the spread (eight weeks, as `volume`). */
+const SPREAD_DAYS = 56;
+/** Weeks the weekday median looks back first, how many values it wants, how far back it may look, and the fewest it may rest on (as `volume`). */
+const WEEKS = 4;
+const WANTED = 3;
+const MAX_WEEKS = 16;
+const MIN_SAME_WEEKDAY = 2;
+const EXCERPT_DAYS = 28;
+const ALL_PLATFORMS = 'all';
+const WEEKDAYS = ['Sunday', 'Monday', 'Tuesday', 'Wednesday', 'Thursday', 'Friday', 'Saturday'];
+
+type SeriesKind = 'entry' | 'conversion' | 'event';
+
+/** One watched series of the flow, before it is split by dimension value. */
+interface SeriesDef {
+  kind: SeriesKind;
+  /** Series key part: `entry`, `conversion` or `event:<name>`. */
+  key: string;
+  subject: Finding['subject'];
+  metric: string;
+  /** How messages name it. */
+  label: string;
+}
+
+/** Daily numerator (people, or completions) and denominator (conversion: people entering) of one value or a dimension's total. */
+interface Daily {
+  num: Float64Array;
+  den: Float64Array;
+}
+
+/** One test: a series of one value on one platform (null: all together) on the judged day. */
+interface Test {
+  series: SeriesDef;
+  dimension: string;
+  value: string;
+  platform: string | null;
+  seriesKey: string;
+  o: Options;
+  /** The value's people (conversion: its rate) on each day, for the excerpt. */
+  shown: Float64Array;
+  /** Expected value of `shown` on each day where known (NaN elsewhere). */
+  expectedShown: Float64Array;
+  observed: number;
+  expected: number;
+  z: number;
+  pValue: number;
+  spread: number;
+  spreadDays: number;
+  /** The value's usual share of the flow (people, or people entering for conversion). */
+  share: number;
+  /** People (conversion: completions) lost, and their share of the flow's expected ones. */
+  lost: number;
+  lostShare: number;
+  /** People entering the value on the day (conversion). */
+  entering: number;
+  /** The rest of the dimension on the day: people, or completions for conversion. */
+  rest: number;
+  floors: boolean;
+}
+
+function seriesOf(input: CheckInput): SeriesDef[] {
+  const flow = input.flow;
+  const first = flow.steps[0]!;
+  const list: SeriesDef[] = [
+    { kind: 'entry', key: 'entry', subject: { type: 'step', name: first.name, step: first.name, event: first.event }, metric: 'people', label: `people entering at ${first.name}` },
+  ];
+  if (flow.steps.length >= 2) list.push({ kind: 'conversion', key: 'conversion', subject: { type: 'flow', name: flow.id }, metric: 'end_to_end_conversion', label: 'end-to-end conversion' });
+  for (const event of flow.events) list.push({ kind: 'event', key: `event:${event}`, subject: { type: 'event', name: event, event }, metric: 'people', label: event });
+  return list;
+}
+
+/** Daily counts per series key, dimension, platform and value, from the per-value rollup rows (all versions). */
+type Cells = Map<string, Map<string, Daily>>;
+
+function newDaily(n: number): Daily {
+  return { num: new Float64Array(n).fill(Number.NaN), den: new Float64Array(n).fill(Number.NaN) };
+}
+
+function add(cells: Cells, group: string, value: string, n: number, day: number, num: number, den: number): void {
+  let values = cells.get(group);
+  if (!values) cells.set(group, (values = new Map()));
+  let daily = values.get(value);
+  if (!daily) values.set(value, (daily = newDaily(n)));
+  daily.num[day] = (Number.isNaN(daily.num[day]!) ? 0 : daily.num[day]!) + num;
+  daily.den[day] = (Number.isNaN(daily.den[day]!) ? 0 : daily.den[day]!) + den;
+}
+
+const groupKey = (series: string, dimension: string, platform: string | null) => `${series}|${dimension}|${platform ?? ALL_PLATFORMS}`;
+
+/** Every value's daily counts, per platform and over the flow's platforms together. */
+function cellsOf(input: CheckInput): Cells {
+  const flow = input.flow;
+  const index = new Map(input.days.map((day, i) => [day, i]));
+  const n = input.days.length;
+  const platforms = new Set(flow.platforms);
+  const events = new Set(flow.events);
+  const last = flow.steps.length - 1;
+  const cells: Cells = new Map();
+  const both = (series: string, row: { dimension: string; platform: string; value: string }, day: number, num: number, den: number) => {
+    add(cells, groupKey(series, row.dimension, row.platform), row.value, n, day, num, den);
+    add(cells, groupKey(series, row.dimension, null), row.value, n, day, num, den);
+  };
+  for (const row of input.funnel) {
+    if (row.dimension === '' || row.version !== ALL_VERSIONS || !platforms.has(row.platform) || row.flow !== flow.id) continue;
+    const day = index.get(row.day);
+    if (day === undefined) continue;
+    if (row.step === 0) both('entry', row, day, Number(row.reached), 0);
+    // Conversion: completions over people entering (everyone entering at any step with `entry: any_step`).
+    const entering = flow.entry === 'any_step' ? Number(row.entered) : row.step === 0 ? Number(row.reached) : 0;
+    const completed = row.step === last ? Number(row.reached) : 0;
+    if (last >= 1) both('conversion', row, day, completed, entering);
+  }
+  for (const row of input.events) {
+    if (row.dimension === '' || row.version !== ALL_VERSIONS || !platforms.has(row.platform) || !events.has(row.event)) continue;
+    const day = index.get(row.day);
+    if (day !== undefined) both(`event:${row.event}`, row, day, Number(row.people), 0);
+  }
+  return cells;
+}
+
+/** The dimension's total per day: NaN on days with no row of any value (unknown), else the sum. */
+function totalOf(values: Iterable<Daily>, n: number): Daily {
+  const total = newDaily(n);
+  for (const daily of values) {
+    for (let i = 0; i < n; i++) {
+      if (Number.isNaN(daily.num[i]!)) continue;
+      total.num[i] = (Number.isNaN(total.num[i]!) ? 0 : total.num[i]!) + daily.num[i]!;
+      total.den[i] = (Number.isNaN(total.den[i]!) ? 0 : total.den[i]!) + daily.den[i]!;
+    }
+  }
+  return total;
+}
+
+/** The `max` values with the most people (conversion: people entering) over the history. */
+function largestValues(values: Map<string, Daily>, kind: SeriesKind, max: number): string[] {
+  const size = (daily: Daily) => (kind === 'conversion' ? daily.den : daily.num).reduce((sum, v) => sum + (Number.isNaN(v) ? 0 : v), 0);
+  return [...values.entries()]
+    .map(([value, daily]) => ({ value, size: size(daily) }))
+    .sort((a, b) => b.size - a.size || a.value.localeCompare(b.value))
+    .slice(0, max)
+    .map((entry) => entry.value);
+}
+
+/** Log odds with a half added to each cell (Haldane's correction), so 0 and all stay finite. */
+function logOdds(successes: number, trials: number): number {
+  return Math.log((successes + 0.5) / (trials - successes + 0.5));
+}
+
+/** The weekday median of `y` before `index` (NaN with fewer than MIN_SAME_WEEKDAY usable values). */
+function expectedAt(y: Float64Array, index: number): number {
+  let weeks = WEEKS;
+  let result = weekdayBaseline(y, index, { weeks });
+  while (result.used < WANTED && weeks < MAX_WEEKS && index - weeks * 7 > 0) {
+    weeks += WEEKS;
+    result = weekdayBaseline(y, index, { weeks });
+  }
+  return result.used >= MIN_SAME_WEEKDAY ? result.expected : Number.NaN;
+}
+
+/**
+ * Judges the last day of one value's series against the rest of its dimension;
+ * undefined when the day is unknown, the value had no history or the spread too few days.
+ */
+function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o: Options, seriesKey: string): Omit<Test, 'series' | 'dimension' | 'value' | 'platform' | 'seriesKey' | 'o'> | undefined {
+  const n = input.days.length;
+  const last = n - 1;
+  const conversion = series.kind === 'conversion';
+  const skip = baselineExclusions(seriesKey, input.anomalous, input.calendar);
+  const y = new Float64Array(n).fill(Number.NaN);
+  const shown = new Float64Array(n).fill(Number.NaN);
+  let seen = false;
+  for (let i = 0; i < n; i++) {
+    if (Number.isNaN(total.num[i]!)) continue;
+    const num = Number.isNaN(own.num[i]!) ? 0 : own.num[i]!;
+    const den = Number.isNaN(own.den[i]!) ? 0 : own.den[i]!;
+    // Before the value's first row it did not exist yet: unknown, not 0.
+    if (!seen && Number.isNaN(own.num[i]!)) continue;
+    seen = true;
+    const restNum = total.num[i]! - num;
+    const restDen = total.den[i]! - den;
+    if (conversion) {
+      if (!(den > 0 && restDen > 0)) continue;
+      shown[i] = num / den;
+      y[i] = logOdds(num, den) - logOdds(restNum, restDen);
+    } else {
+      shown[i] = num;
+      y[i] = Math.log((num + 1) / (restNum + 1));
+    }
+  }
+  if (Number.isNaN(y[last]!)) return undefined;
+  const base = Float64Array.from(y);
+  for (let i = 0; i < last; i++) if (skip.has(input.days[i]!)) base[i] = Number.NaN;
+  const expectedY = new Float64Array(n).fill(Number.NaN);
+  const residuals: number[] = [];
+  for (let i = Math.max(0, last - SPREAD_DAYS); i <= last; i++) {
+    expectedY[i] = expectedAt(base, i);
+    if (i < last && Number.isFinite(expectedY[i]!) && !Number.isNaN(base[i]!)) residuals.push(base[i]! - expectedY[i]!);
+  }
+  const center = expectedY[last]!;
+  if (!Number.isFinite(center) || residuals.length < MIN_SPREAD_DAYS) return undefined;
+  const num = own.num[last]!;
+  const den = own.den[last]!;
+  const restNum = total.num[last]! - num;
+  const restDen = total.den[last]! - den;
+  // What the value would be today at its usual ratio to the rest: people, or a rate.
+  const expectedOf = (i: number) => {
+    if (!Number.isFinite(expectedY[i]!) || Number.isNaN(total.num[i]!)) return Number.NaN;
+    const ownNum = Number.isNaN(own.num[i]!) ? 0 : own.num[i]!;
+    const ownDen = Number.isNaN(own.den[i]!) ? 0 : own.den[i]!;
+    if (!conversion) return (total.num[i]! - ownNum + 1) * Math.exp(expectedY[i]!) - 1;
+    const odds = Math.exp(logOdds(total.num[i]! - ownNum, total.den[i]! - ownDen) + expectedY[i]!);
+    return odds / (1 + odds);
+  };
+  const expectedShown = new Float64Array(n).fill(Number.NaN);
+  for (let i = Math.max(0, last - EXCERPT_DAYS + 1); i <= last; i++) expectedShown[i] = expectedOf(i);
+  const expected = expectedShown[last]!;
+  let floor: number;
+  let observed: number;
+  let share: number;
+  let lost: number;
+  let lostShare: number;
+  let floors: boolean;
+  if (conversion) {
+    observed = den > 0 ? num / den : Number.NaN;
+    const restRate = restDen > 0 ? restNum / restDen : 0;
+    // Binomial noise of both log odds (delta method): 1 / (n p (1 - p)) each, at the expected rate.
+    const cell = (trials: number, p: number) => 1 / Math.max(trials * p * (1 - p), 0.25);
+    floor = Math.sqrt(cell(den, expected) + cell(restDen, restRate));
+    share = den / (den + restDen);
+    lost = den * (expected - observed);
+    lostShare = lost / (den * expected + restNum);
+    floors = den >= o.min_people && observed < expected * (1 - o.max_drop);
+  } else {
+    observed = num;
+    // Poisson noise of both counts on the log scale.
+    floor = Math.sqrt(1 / (expected + 1) + 1 / (restNum + 1));
+    share = expected / (expected + restNum);
+    lost = expected - observed;
+    lostShare = lost / (expected + restNum);
+    floors = expected >= o.min_people && observed < expected * (1 - o.max_drop);
+  }
+  const spread = Math.max(robustLocationScale(residuals).scale, floor);
+  const zScore = (y[last]! - center) / spread;
+  if (!Number.isFinite(zScore)) return undefined;
+  return {
+    shown,
+    expectedShown,
+    observed,
+    expected,
+    z: zScore,
+    pValue: tCdf(zScore, residuals.length - 1),
+    spread,
+    spreadDays: residuals.length,
+    share,
+    lost,
+    lostShare,
+    entering: den,
+    rest: restNum,
+    floors: floors && zScore <= -o.min_score,
+  };
+}
+
+function severityOf(test: Test): Severity {
+  if (test.lostShare >= test.o.page_loss) return 'page';
+  return test.lostShare >= test.o.warn_loss ? 'warn' : 'note';
+}
+
+function finding(input: CheckInput, test: Test, adjusted: number, tests: number): Finding {
+  const conversion = test.series.kind === 'conversion';
+  const { severity, calendar } = calendarSeverity(input, 'down', severityOf(test));
+  const since = anomalousSince(input, test.seriesKey) ?? input.day;
+  const flagged = new Set([...(input.anomalous[test.seriesKey] ?? []), input.day]);
+  const band = (factor: number) => test.expectedShown.map((e) => e * factor);
+  const platform = test.platform ?? 'all platforms';
+  const common = {
+    platform,
+    dimension: test.dimension,
+    value: test.value,
+    day: input.day,
+    lost: formatCount(Math.max(0, test.lost)),
+    lost_share: formatPercent(test.lostShare),
+    since,
+    calendar: calendar !== undefined ? `; ${input.day} is declared in the calendar: ${calendar}` : '',
+  };
+  const message = conversion
+    ? renderMessage(messages.conversion_drop, {
+        ...common,
+        observed: formatPercent(test.observed),
+        expected: formatPercent(test.expected),
+        entering: formatCount(test.entering),
+      })
+    : renderMessage(messages.drop, {
+        ...common,
+        subject: test.series.label,
+        observed: formatCount(test.observed),
+        expected: formatNumber(test.expected),
+        change: formatPercent(1 - test.observed / test.expected, 0),
+        share: formatPercent(test.share, 0),
+      });
+  return {
+    check: 'segments',
+    kind: conversion ? 'conversion_drop' : 'drop',
+    flow: input.flow.id,
+    subject: test.series.subject,
+    metric: test.series.metric,
+    platform: test.platform,
+    version: null,
+    day: input.day,
+    since,
+    observed: test.observed,
+    expected: { low: test.expected * (1 - test.o.max_drop), high: test.expected / (1 - test.o.max_drop), center: test.expected },
+    score: test.z,
+    direction: 'down',
+    severity,
+    message,
+    seriesKey: test.seriesKey,
+    excerpt: excerpt(input.days, test.shown, EXCERPT_DAYS, { low: band(1 - test.o.max_drop), high: band(1 / (1 - test.o.max_drop)) }, flagged),
+    ...(calendar !== undefined ? { calendar } : {}),
+    evidence: {
+      dimension: test.dimension,
+      value: test.value,
+      usualShare: test.share,
+      expected: test.expected,
+      lost: test.lost,
+      lostShare: test.lostShare,
+      rest: test.rest,
+      z: test.z,
+      pValue: test.pValue,
+      pAdjusted: adjusted,
+      tests,
+      spread: test.spread,
+      spreadDays: test.spreadDays,
+      weekday: WEEKDAYS[weekday(input.day)]!,
+      ...(conversion ? { entering: test.entering } : {}),
+    },
+  };
+}
+
+function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
+  const flow = input.flow;
+  const n = input.days.length;
+  const cells = cellsOf(input);
+  const settled = conversionSettled(input);
+  const tests: Test[] = [];
+  const dimensions = [...new Set([...cells.keys()].map((key) => key.split('|')[1]!))].sort();
+  for (const series of seriesOf(input)) {
+    // A day's conversion is judged only once its cohort has had the whole conversion window (as `conversion`).
+    if (series.kind === 'conversion' && !settled) continue;
+    for (const dimension of dimensions) {
+      for (const platform of [...flow.platforms, null]) {
+        const values = cells.get(groupKey(series.key, dimension, platform));
+        if (!values || values.size < 2) continue;
+        const o = platform === null ? all : optionsFor(all, platform);
+        const total = totalOf(values.values(), n);
+        for (const value of largestValues(values, series.kind, all.max_values)) {
+          const seriesKey = `segments:${series.key}:${dimension}=${value}:${platform ?? ALL_PLATFORMS}:*`;
+          const judged = judge(input, series, values.get(value)!, total, o, seriesKey);
+          if (judged) tests.push({ series, dimension, value, platform, seriesKey, o, ...judged });
+        }
+      }
+    }
+  }
+  const { adjusted, rejected } = benjaminiHochberg(
+    tests.map((t) => t.pValue),
+    all.false_discovery_rate,
+  );
+  const reported = tests.map((test, i) => test.floors && rejected[i]!);
+  const onPlatform = new Set(tests.filter((t, i) => reported[i] && t.platform !== null).map((t) => `${t.series.key}|${t.dimension}|${t.value}`));
+  const findings: Finding[] = [];
+  tests.forEach((test, i) => {
+    if (!reported[i]) return;
+    // All platforms together speak only for a drop no single platform shows.
+    if (test.platform === null && onPlatform.has(`${test.series.key}|${test.dimension}|${test.value}`)) return;
+    findings.push(finding(input, test, adjusted[i]!, tests.length));
+  });
+  return findings;
+}
+
+export const segmentsCheck: CheckModule<typeof options> = {
+  id: 'segments',
+  description:
+    "Each value of each configured dimension on its own: people entering, end-to-end conversion and people per watched event against the value's usual share of the flow, false findings controlled across values x series x platforms (Benjamini-Hochberg).",
+  options,
+  messages,
+  run,
+};
