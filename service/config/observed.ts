@@ -2,7 +2,8 @@
  * `validate --against-state`: the flows' events, step parameters and step
  * values compared with what the rollups in the state schema have seen, to
  * catch a step that names an event nobody sends (a typo, or a rename in the
- * apps). Reads `event_days` and `param_days` only, in a read-only transaction.
+ * apps), and dimensions with more values than the `segments` check watches.
+ * Reads `event_days` and `param_days` only, in a read-only transaction.
  */
 import pg from 'pg';
 import { quoteIdent, type Query } from '../db/sql.js';
@@ -19,6 +20,8 @@ export interface Observed {
   events: Set<string>;
   /** Parameter keys per profiled event; each key's values when the rollups kept all of them, else null. */
   params: Map<string, Map<string, Set<string> | null>>;
+  /** Distinct values seen per configured dimension. */
+  dimensionValues: Map<string, number>;
 }
 
 export function newestRollupDayQuery(schema: string): Query {
@@ -28,6 +31,16 @@ export function newestRollupDayQuery(schema: string): Query {
 export function observedEventsQuery(schema: string, to: string, days: number): Query {
   return {
     text: `select distinct event from ${quoteIdent(schema)}.event_days where day > $1::date - $2::int and day <= $1::date`,
+    values: [to, days],
+  };
+}
+
+export function observedDimensionValuesQuery(schema: string, to: string, days: number): Query {
+  return {
+    text: `select dimension, count(distinct value)::int as values
+      from ${quoteIdent(schema)}.event_days
+      where day > $1::date - $2::int and day <= $1::date and dimension <> ''
+      group by dimension`,
     values: [to, days],
   };
 }
@@ -61,7 +74,14 @@ export async function readObserved(url: string, schema: string, days: number, ev
     if (!to) return undefined;
     const seen = await client.query<{ event: string }>(observedEventsQuery(schema, to, days));
     const params = await client.query<{ event: string; key: string; complete: boolean; values: string[] }>(observedParamsQuery(schema, to, days, events));
-    const observed: Observed = { from: addDays(to, 1 - days), to, events: new Set(seen.rows.map((row) => row.event)), params: new Map() };
+    const dimensions = await client.query<{ dimension: string; values: number }>(observedDimensionValuesQuery(schema, to, days));
+    const observed: Observed = {
+      from: addDays(to, 1 - days),
+      to,
+      events: new Set(seen.rows.map((row) => row.event)),
+      params: new Map(),
+      dimensionValues: new Map(dimensions.rows.map((row) => [row.dimension, row.values])),
+    };
     for (const row of params.rows) {
       const keys = observed.params.get(row.event) ?? new Map<string, Set<string> | null>();
       keys.set(row.key, row.complete ? new Set(row.values) : null);
@@ -134,6 +154,17 @@ export function compareWithObserved(flows: readonly Checked<FlowConfig>[], obser
     });
     for (const event of Object.keys(config.events)) {
       if (!observed.events.has(event)) unseenEvent(flow, ['events', event], 'key', event);
+    }
+    const segments = config.checks.segments as { enabled: boolean; max_values: number } | undefined;
+    if (segments?.enabled) {
+      for (const [dimension, count] of [...observed.dimensionValues].sort(([a], [b]) => a.localeCompare(b))) {
+        if (count <= segments.max_values) continue;
+        warn(flow, ['checks', 'segments', 'max_values'], 'value', {
+          expected: `at most ${segments.max_values} values of a dimension for the segments check to watch them all`,
+          found: `${count} values of ${dimension} (${window})`,
+          hint: `only its ${segments.max_values} largest values are watched; raise max_values or drop the dimension`,
+        });
+      }
     }
   }
   return problems;

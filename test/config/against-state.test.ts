@@ -5,12 +5,13 @@
  * of screen_shown are fully profiled; one older row sits outside the window.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { segmentsCheck } from '../../checks/segments/index.js';
 import { EXIT } from '../../service/cli/exit-codes.js';
 import { freePort } from '../../service/db/embedded.js';
 import { migrate } from '../../service/db/migrate.js';
 import { insertEventDays, insertParamDays, type ParamRowToWrite } from '../../service/state/rollups.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { brokenCopy, replace, runValidate, snapshot, type Changes } from './helpers.js';
+import { brokenCopy, replace, runValidate, snapshot, testChecks, type Changes } from './helpers.js';
 
 const NEWEST = '2026-11-28';
 
@@ -95,6 +96,28 @@ describe('validate --against-state', () => {
       ]);
     } finally {
       fixture.remove();
+    }
+  });
+
+  it('warns when a dimension has more values than the segments check watches', async () => {
+    const wide = await createTestSchema('validate_wide');
+    await migrate(wide.pool, wide.schema);
+    const country = (value: string) => ({ event: 'screen_shown', platform: 'web', version: '*', dimension: 'country', value, events: 10, people: 8 });
+    const seen = ['screen_shown', 'pass_purchase_result', 'signup_submitted', 'zone_selected'].map((event) => ({ event, platform: 'web', version: '*', dimension: '', value: '', events: 100, people: 80 }));
+    await wide.pool.query(insertEventDays(wide.schema, NEWEST, [...seen, ...Array.from({ length: 60 }, (_, i) => country(`c${i}`))]));
+    // monthly_pass watches up to 70 values of a dimension; account_signup keeps the default 50.
+    const fixture = brokenCopy({
+      'plumbline.yaml': replace('  url: ${PLUMBLINE_STATE_URL:-}\n', `  url: \${PLUMBLINE_STATE_URL:-}\n  schema: ${wide.schema}\n`),
+      'flows/monthly-pass.yaml': replace('checks:\n', 'checks:\n  segments: { max_values: 70 }\n'),
+    });
+    try {
+      const run = await runValidate(fixture, { againstState: true, checks: [...testChecks, segmentsCheck], env: { PLUMBLINE_STATE_URL: wide.url } });
+      expect(run.lines.filter((line) => line.includes('segments'))).toEqual([
+        'config/flows/account-signup.yaml:1:1 warning: checks.segments.max_values: expected at most 50 values of a dimension for the segments check to watch them all, found 60 values of country (2026-11-01 to 2026-11-28) (only its 50 largest values are watched; raise max_values or drop the dimension)',
+      ]);
+    } finally {
+      fixture.remove();
+      await wide.drop();
     }
   });
 
