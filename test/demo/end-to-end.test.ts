@@ -150,8 +150,8 @@ describe('demo scenario end to end', () => {
     expect(over, lines.join('\n')).toBe(false);
   });
 
-  it('lists findings from all six checks', () => {
-    expect([...new Set(findings.map((f) => f.check))].sort()).toEqual(['conversion', 'freshness', 'parity', 'schema', 'seasonal', 'volume']);
+  it('lists findings from all seven checks', () => {
+    expect([...new Set(findings.map((f) => f.check))].sort()).toEqual(['conversion', 'freshness', 'parity', 'schema', 'seasonal', 'segments', 'volume']);
   });
 
   it('replays the judged days in a backtest exactly as the live runs judged them', async () => {
