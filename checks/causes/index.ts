@@ -104,7 +104,8 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     // One platform when every symptom is on it; a cause seen across platforms (a segment, the calendar) has none.
     const platform = platforms.length === 1 ? platforms[0]! : null;
     const dataDelay = cause.label === 'data_delay';
-    const subject = dataDelay ? DATA_DELAY_SUBJECT : subjectOf(symptoms, input, platform);
+    // A segment is about the value across the flow: which of its series crossed a threshold on a day is chance.
+    const subject = dataDelay ? DATA_DELAY_SUBJECT : cause.label === 'segment' ? input.flow.id : subjectOf(symptoms, input, platform);
     const version = cause.version;
     const since = symptoms.map((f) => f.since ?? f.day).sort()[0]!;
     const segmentKey = cause.segment ? `|${cause.segment.dimension}=${cause.segment.value}` : '';

@@ -146,6 +146,8 @@ describe('segments: one dimension value against the rest of the flow', () => {
     const drafts = analyseCauses(input, run(input));
     expect(drafts).toHaveLength(1);
     expect(drafts[0]!.cause).toMatchObject({ label: 'segment', segment: { dimension: 'region', value: 'east' } });
+    // The incident is about the value across the flow, whichever of its series crossed a threshold that day.
+    expect(drafts[0]!.fingerprint).toBe('monthly_pass|segment|monthly_pass|*|*|region=east');
     expect(drafts[0]!.cause.sentence).toMatch(/^region = east \(usually 2\d% of the flow's people\) lost [\d,]+ people on 2026-11-17/);
   });
 
