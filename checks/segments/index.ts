@@ -55,7 +55,7 @@
  * family. The cause analysis labels it `segment`, naming the value.
  */
 import { z } from 'zod';
-import { formatCount, formatNumber, formatPercent, renderMessage } from '../messages.js';
+import { formatCount, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent } from '../options.js';
 import { anomalousSince, calendarSeverity } from '../findings.js';
 import { conversionSettled } from '../funnel.js';
@@ -87,9 +87,9 @@ export const options = z.strictObject({
 type Options = z.output<typeof options>;
 
 const messages = {
-  drop: '{platform} {dimension} = {value}, {subject}: {observed} people on {day}, {change} below the {expected} its usual {share} of the flow predicts ({lost} people, {lost_share} of the flow; since {since}){calendar}',
+  drop: '{dimension}={value} on {platform}, {subject}: {observed} people on {day}, {change} below the {expected} its usual {share} of the flow predicts ({lost} people, {lost_share} of the flow; since {since}){calendar}',
   conversion_drop:
-    '{platform} {dimension} = {value}, end-to-end conversion {observed} on {day} against {expected} usual beside the rest of the flow ({entering} people entering, {lost} completions lost, {lost_share} of the flow; since {since}){calendar}',
+    '{dimension}={value} on {platform}, end-to-end conversion {observed} on {day} against {expected} usual beside the rest of the flow ({entering} people entering, {lost} completions lost, {lost_share} of the flow; since {since}){calendar}',
 };
 
 /** Fewest history days of the value's ratio behind a spread (two weeks: no judgement in a flow's first four weeks of rollups). */
@@ -389,7 +389,7 @@ function finding(input: CheckInput, test: Test, adjusted: number, tests: number)
         ...common,
         subject: test.series.label,
         observed: formatCount(test.observed),
-        expected: formatNumber(test.expected),
+        expected: formatCount(test.expected),
         change: formatPercent(1 - test.observed / test.expected, 0),
         share: formatPercent(test.share, 0),
       });

@@ -138,7 +138,7 @@ describe('segments: one dimension value against the rest of the flow', () => {
     expect(entry.observed / entry.expected.center).toBeCloseTo(0.3, 1);
     // Severity by the share of the flow lost: more than warn_loss (2%), less than page_loss (30%).
     expect(entry.severity).toBe('warn');
-    expect(entry.message).toMatch(/^android region = east, people entering at intro: \d[\d,]* people on 2026-11-17, \d+% below the [\d,]+ its usual 2\d% of the flow predicts/);
+    expect(entry.message).toMatch(/^region=east on android, people entering at intro: \d[\d,]* people on 2026-11-17, \d+% below the [\d,]+ its usual 2\d% of the flow predicts/);
   });
 
   it('names the value as the cause: one segment incident with its usual share and the people lost', () => {
