@@ -163,7 +163,7 @@ export interface Attribution {
 }
 
 export function attribute(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution {
-  // A `segments` finding already compares one value with the rest of its dimension on the same platform and day:
+  // A `segments` finding already judges one value by its share of its dimension on the same platform and day:
   // a release, a platform or a pipeline fault moves every value alike and never shows there.
   if (finding.check === 'segments') {
     return (announced(finding, input) ? calendar(finding, input) : undefined) ?? namedSegment(finding, input) ?? behaviour(finding, input);
@@ -440,9 +440,10 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
 }
 
 /**
- * The cause of a `segments` finding: its dimension value. When the explanatory power and surprise ranking of
- * the same measure (`segment`, as for a finding about the total) names that value too, its explanation is
- * taken as it is, so a value's drop that also moved the total is one incident.
+ * The cause of a `segments` finding: its dimension value, its usual share and the loss. When the explanatory
+ * power and surprise ranking of the same measure (`segment`, as for a finding about the total) names that value
+ * too, the cause takes that explanation's group and values, so a value's drop that also moved the total is one
+ * incident.
  */
 function namedSegment(finding: Finding, input: CheckInput): Attribution | undefined {
   const evidence = finding.evidence ?? {};
@@ -450,7 +451,7 @@ function namedSegment(finding: Finding, input: CheckInput): Attribution | undefi
   const value = String(evidence.value ?? '');
   if (dimension === '' || typeof evidence.expected !== 'number' || typeof evidence.rest !== 'number') return undefined;
   const ranked = segment(finding, input);
-  if (ranked?.cause.segment?.dimension === dimension && ranked.cause.segment.value.split(', ').includes(value)) return ranked;
+  const agrees = ranked?.cause.segment?.dimension === dimension && ranked.cause.segment.value.split(', ').includes(value);
   const conversion = finding.metric === 'end_to_end_conversion';
   const entering = Number(evidence.entering ?? 0);
   // Conversion is sized in completions: the value's expected and actual ones beside the rest's.
@@ -465,16 +466,17 @@ function namedSegment(finding: Finding, input: CheckInput): Attribution | undefi
   const lostShare = Number(evidence.lostShare);
   const what = conversion ? 'completions' : 'people';
   return {
-    groupKey: `segment|${dimension}=${value}`,
+    // Where the ranking named this value (perhaps with another), its group: one incident with the total's findings.
+    groupKey: agrees ? ranked!.groupKey : `segment|${dimension}=${value}`,
     cause: {
       label: 'segment',
       confidence: Math.min(0.95, Math.max(0.5, 1 - 1 / Math.max(1, Math.abs(finding.score)))),
       sentence: `${dimension} = ${value} (usually ${formatPercent(usualShare, 0)} of the flow's ${conversion ? 'people entering' : 'people'}) lost ${formatCount(Math.max(0, lost))} ${what} on ${input.day}, ${formatPercent(lostShare)} of the flow's: ${
         conversion ? `${formatPercent(finding.observed)} converted against ${formatPercent(evidence.expected)}` : `${formatCount(finding.observed)} against ${formatCount(evidence.expected)}`
-      } expected from its usual share beside the rest of the flow`,
+      } expected from its usual share of the flow`,
       platform: finding.platform,
       version: null,
-      segment: { dimension, value, explanatoryPower: scored!.ep, surprise: scored!.surprise },
+      segment: agrees ? ranked!.cause.segment! : { dimension, value, explanatoryPower: scored!.ep, surprise: scored!.surprise },
       evidence: { measure: finding.metric, dimension, values: value, usualShare, lost, lostShare, explanatoryPower: scored!.ep, surprise: scored!.surprise, z: finding.score },
     },
   };

@@ -9,21 +9,25 @@
  * event. Rows: the rollups' per-dimension-value rows (all versions).
  *
  * Method, per series of one value:
- * - The value is judged against the rest of its dimension (every other value
- *   together) on the same day: y = log((people + 1) / (rest + 1)) for people,
- *   the log odds ratio of the value's conversion to the rest's for
- *   conversion. A move of everyone at once (a holiday, a platform's tracking,
- *   a late load) leaves y where it was: those are the totals' checks' to
- *   report, and a release or a platform break never reads as a segment here.
+ * - The value is judged by its share of its dimension's total (every value
+ *   together) on the same day: y = log((people + 1) / (total + 1)) for
+ *   people, the value's conversion log odds less the flow's for conversion. A
+ *   move of everyone at once (a holiday, a platform's tracking, a late load)
+ *   leaves y where it was: those are the totals' checks' to report, and a
+ *   release or a platform break never reads as a segment here. (Against the
+ *   rest alone, a value holding most of the flow would be judged on the noise
+ *   of a small rest: the demo's US, 83% of web sign-ups, "fell" by half the
+ *   day Canada's few sign-ups doubled.)
  * - Expectation: y's median on the same weekday over the last four usable
  *   weeks (looking back up to sixteen when recent weeks were left out), as
- *   `volume` (`weekdayBaseline` in checks/stats); the expected people are the
- *   rest's people today times that usual ratio ("the value's own weekday
- *   expectation", given how the rest of the flow did today). Calendar days and
+ *   `volume` (`weekdayBaseline` in checks/stats); the expected people are
+ *   today's total times that usual share ("the value's own weekday
+ *   expectation", given how the whole flow did today). Calendar days and
  *   days already flagged for the series never enter the baseline.
  * - Spread: 1.4826 MAD of y minus its expectation over the last eight weeks,
- *   floored at the Poisson (people) or binomial (conversion) noise of today's
- *   counts on the log scale; score z = (y - expected) / spread; one-sided
+ *   floored at the multinomial noise of the share, (1 - share) / people, or
+ *   the binomial noise of the log odds, (1 - share) / (n p (1 - p)) (delta
+ *   method); score z = (y - expected) / spread; one-sided
  *   p-value for a drop from Student's t on (days in the spread - 1) degrees of
  *   freedom (the spread is estimated; common practice). A value needs
  *   MIN_SPREAD_DAYS of history before it is judged.
@@ -32,12 +36,12 @@
  *   `false_discovery_rate` (checks/stats/benjamini-hochberg.ts) keeps the
  *   expected share of false findings among those reported at that rate.
  * - Floors, as `volume`: expected people at least `min_people` (conversion:
- *   people entering the value that day); a drop of more than `max_drop`
+ *   expected completions); a drop of more than `max_drop`
  *   against expectation; |z| at least `min_score`. Only drops are reported:
  *   a value gaining people is rarely a breakage.
  * - Cardinality: a dimension with more than `max_values` values is watched on
- *   its `max_values` largest by people over the history (the rest still count
- *   in each value's "rest").
+ *   its `max_values` largest by people over the history (the others still count
+ *   in the total).
  * - All platforms together speak for a series of a value only when no single
  *   platform's series of it was reported (as `conversion`).
  *
@@ -68,12 +72,12 @@ export const options = z.strictObject({
   max_drop: percent()
     .default(0.3)
     .describe("A value with more than this share fewer people (or a lower conversion) than its usual share of the flow predicts is a drop."),
-  min_people: z.number().int().min(1).default(50).describe('Values expected to have fewer people than this on the day (conversion: fewer entering) are not judged.'),
+  min_people: z.number().int().min(1).default(50).describe('Values expected to have fewer people than this on the day (conversion: fewer completions) are not judged.'),
   min_score: z
     .number()
     .min(0)
     .default(4)
-    .describe("Least robust z of the value's ratio to the rest of the flow: a drop must also stand out from that ratio's own day-to-day noise."),
+    .describe("Least robust z of the value's share of the flow: a drop must also stand out from that share's own day-to-day noise."),
   false_discovery_rate: z
     .number()
     .gt(0)
@@ -89,7 +93,7 @@ type Options = z.output<typeof options>;
 const messages = {
   drop: '{dimension}={value} on {platform}, {subject}: {observed} people on {day}, {change} below the {expected} its usual {share} of the flow predicts ({lost} people, {lost_share} of the flow; since {since}){calendar}',
   conversion_drop:
-    '{dimension}={value} on {platform}, end-to-end conversion {observed} on {day} against {expected} usual beside the rest of the flow ({entering} people entering, {lost} completions lost, {lost_share} of the flow; since {since}){calendar}',
+    '{dimension}={value} on {platform}, end-to-end conversion {observed} on {day} against {expected} usual beside the whole flow ({entering} people entering, {lost} completions lost, {lost_share} of the flow; since {since}){calendar}',
 };
 
 /** Fewest history days of the value's ratio behind a spread (two weeks: no judgement in a flow's first four weeks of rollups). */
@@ -165,23 +169,33 @@ function seriesOf(input: CheckInput): SeriesDef[] {
   return list;
 }
 
-/** Daily counts per series key, dimension, platform and value, from the per-value rollup rows (all versions). */
-type Cells = Map<string, Map<string, Daily>>;
+/** Daily counts per series key, dimension, platform ('' for all together) and value, from the per-value rollup rows (all versions). */
+type Cells = Map<string, Map<string, Map<string, Map<string, Daily>>>>;
 
 function newDaily(n: number): Daily {
   return { num: new Float64Array(n).fill(Number.NaN), den: new Float64Array(n).fill(Number.NaN) };
 }
 
-function add(cells: Cells, group: string, value: string, n: number, day: number, num: number, den: number): void {
-  let values = cells.get(group);
-  if (!values) cells.set(group, (values = new Map()));
+/** The values of one series, dimension and platform: nested maps, so no key is built per row. */
+function valuesOf(cells: Cells, series: string, dimension: string, platform: string): Map<string, Daily> {
+  let dimensions = cells.get(series);
+  if (!dimensions) cells.set(series, (dimensions = new Map()));
+  let platforms = dimensions.get(dimension);
+  if (!platforms) dimensions.set(dimension, (platforms = new Map()));
+  let values = platforms.get(platform);
+  if (!values) platforms.set(platform, (values = new Map()));
+  return values;
+}
+
+function add(values: Map<string, Daily>, value: string, n: number, day: number, num: number, den: number): void {
   let daily = values.get(value);
   if (!daily) values.set(value, (daily = newDaily(n)));
   daily.num[day] = (Number.isNaN(daily.num[day]!) ? 0 : daily.num[day]!) + num;
   daily.den[day] = (Number.isNaN(daily.den[day]!) ? 0 : daily.den[day]!) + den;
 }
 
-const groupKey = (series: string, dimension: string, platform: string | null) => `${series}|${dimension}|${platform ?? ALL_PLATFORMS}`;
+/** Platform key of all platforms together in `Cells` (platform names are never empty). */
+const TOGETHER = '';
 
 /** Every value's daily counts, per platform and over the flow's platforms together. */
 function cellsOf(input: CheckInput): Cells {
@@ -189,12 +203,12 @@ function cellsOf(input: CheckInput): Cells {
   const index = new Map(input.days.map((day, i) => [day, i]));
   const n = input.days.length;
   const platforms = new Set(flow.platforms);
-  const events = new Set(flow.events);
+  const eventKeys = new Map(flow.events.map((event) => [event, `event:${event}`]));
   const last = flow.steps.length - 1;
   const cells: Cells = new Map();
   const both = (series: string, row: { dimension: string; platform: string; value: string }, day: number, num: number, den: number) => {
-    add(cells, groupKey(series, row.dimension, row.platform), row.value, n, day, num, den);
-    add(cells, groupKey(series, row.dimension, null), row.value, n, day, num, den);
+    add(valuesOf(cells, series, row.dimension, row.platform), row.value, n, day, num, den);
+    add(valuesOf(cells, series, row.dimension, TOGETHER), row.value, n, day, num, den);
   };
   for (const row of input.funnel) {
     if (row.dimension === '' || row.version !== ALL_VERSIONS || !platforms.has(row.platform) || row.flow !== flow.id) continue;
@@ -204,12 +218,13 @@ function cellsOf(input: CheckInput): Cells {
     // Conversion: completions over people entering (everyone entering at any step with `entry: any_step`).
     const entering = flow.entry === 'any_step' ? Number(row.entered) : row.step === 0 ? Number(row.reached) : 0;
     const completed = row.step === last ? Number(row.reached) : 0;
-    if (last >= 1) both('conversion', row, day, completed, entering);
+    if (last >= 1 && (row.step === 0 || row.step === last || flow.entry === 'any_step')) both('conversion', row, day, completed, entering);
   }
   for (const row of input.events) {
-    if (row.dimension === '' || row.version !== ALL_VERSIONS || !platforms.has(row.platform) || !events.has(row.event)) continue;
+    if (row.dimension === '' || row.version !== ALL_VERSIONS || !platforms.has(row.platform)) continue;
+    const series = eventKeys.get(row.event);
     const day = index.get(row.day);
-    if (day !== undefined) both(`event:${row.event}`, row, day, Number(row.people), 0);
+    if (series !== undefined && day !== undefined) both(series, row, day, Number(row.people), 0);
   }
   return cells;
 }
@@ -254,7 +269,7 @@ function expectedAt(y: Float64Array, index: number): number {
 }
 
 /**
- * Judges the last day of one value's series against the rest of its dimension;
+ * Judges the last day of one value's series by its share of its dimension's total;
  * undefined when the day is unknown, the value had no history or the spread too few days.
  */
 function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o: Options, seriesKey: string): Omit<Test, 'series' | 'dimension' | 'value' | 'platform' | 'seriesKey' | 'o'> | undefined {
@@ -272,15 +287,13 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
     // Before the value's first row it did not exist yet: unknown, not 0.
     if (!seen && Number.isNaN(own.num[i]!)) continue;
     seen = true;
-    const restNum = total.num[i]! - num;
-    const restDen = total.den[i]! - den;
     if (conversion) {
-      if (!(den > 0 && restDen > 0)) continue;
+      if (!(den > 0 && total.den[i]! > den)) continue;
       shown[i] = num / den;
-      y[i] = logOdds(num, den) - logOdds(restNum, restDen);
+      y[i] = logOdds(num, den) - logOdds(total.num[i]!, total.den[i]!);
     } else {
       shown[i] = num;
-      y[i] = Math.log((num + 1) / (restNum + 1));
+      y[i] = Math.log((num + 1) / (total.num[i]! + 1));
     }
   }
   if (Number.isNaN(y[last]!)) return undefined;
@@ -298,13 +311,11 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   const den = own.den[last]!;
   const restNum = total.num[last]! - num;
   const restDen = total.den[last]! - den;
-  // What the value would be today at its usual ratio to the rest: people, or a rate.
+  // What the value would be today at its usual share of the flow: people, or a rate beside the flow's.
   const expectedOf = (i: number) => {
     if (!Number.isFinite(expectedY[i]!) || Number.isNaN(total.num[i]!)) return Number.NaN;
-    const ownNum = Number.isNaN(own.num[i]!) ? 0 : own.num[i]!;
-    const ownDen = Number.isNaN(own.den[i]!) ? 0 : own.den[i]!;
-    if (!conversion) return (total.num[i]! - ownNum + 1) * Math.exp(expectedY[i]!) - 1;
-    const odds = Math.exp(logOdds(total.num[i]! - ownNum, total.den[i]! - ownDen) + expectedY[i]!);
+    if (!conversion) return (total.num[i]! + 1) * Math.exp(expectedY[i]!) - 1;
+    const odds = Math.exp(logOdds(total.num[i]!, total.den[i]!) + expectedY[i]!);
     return odds / (1 + odds);
   };
   const expectedShown = new Float64Array(n).fill(Number.NaN);
@@ -316,27 +327,34 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   let lost: number;
   let lostShare: number;
   let floors: boolean;
+  let counts: { observed: number; expected: number };
   if (conversion) {
     observed = den > 0 ? num / den : Number.NaN;
-    const restRate = restDen > 0 ? restNum / restDen : 0;
-    // Binomial noise of both log odds (delta method): 1 / (n p (1 - p)) each, at the expected rate.
-    const cell = (trials: number, p: number) => 1 / Math.max(trials * p * (1 - p), 0.25);
-    floor = Math.sqrt(cell(den, expected) + cell(restDen, restRate));
     share = den / (den + restDen);
+    // Binomial noise of the value's log odds less the flow's, which holds the value (delta method, at the
+    // expected rate): (1 - share) / (n p (1 - p)).
+    floor = Math.sqrt((1 - share) / Math.max(den * expected * (1 - expected), 0.25));
     lost = den * (expected - observed);
     lostShare = lost / (den * expected + restNum);
-    floors = den >= o.min_people && observed < expected * (1 - o.max_drop);
+    // The people a conversion stands for are its completions: too few expected and a rate is mostly noise.
+    floors = den * expected >= o.min_people && observed < expected * (1 - o.max_drop);
+    counts = { observed: num, expected: den * expected };
   } else {
     observed = num;
-    // Poisson noise of both counts on the log scale.
-    floor = Math.sqrt(1 / (expected + 1) + 1 / (restNum + 1));
     share = expected / (expected + restNum);
+    // Multinomial noise of the value's share on the log scale: (1 - share) / people.
+    floor = Math.sqrt((1 - share) / (expected + 1));
     lost = expected - observed;
     lostShare = lost / (expected + restNum);
     floors = expected >= o.min_people && observed < expected * (1 - o.max_drop);
+    counts = { observed: num, expected };
   }
   const spread = Math.max(robustLocationScale(residuals).scale, floor);
-  const zScore = (y[last]! - center) / spread;
+  // The log of a count of a few dozen overstates how unlikely a low day is: the score is also capped at the
+  // count's own z on Anscombe's square-root scale (F. J. Anscombe 1948, Biometrika 35:246-254; variance 1
+  // for a Poisson count), widened by 1 / (1 - share) as the value is part of the total.
+  const countZ = (2 * (Math.sqrt(counts.observed + 0.375) - Math.sqrt(Math.max(counts.expected, 0) + 0.375))) / Math.sqrt(Math.max(1 - share, 1e-9));
+  const zScore = Math.max((y[last]! - center) / spread, countZ);
   if (!Number.isFinite(zScore)) return undefined;
   return {
     shown,
@@ -438,13 +456,12 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
   const cells = cellsOf(input);
   const settled = conversionSettled(input);
   const tests: Test[] = [];
-  const dimensions = [...new Set([...cells.keys()].map((key) => key.split('|')[1]!))].sort();
   for (const series of seriesOf(input)) {
     // A day's conversion is judged only once its cohort has had the whole conversion window (as `conversion`).
     if (series.kind === 'conversion' && !settled) continue;
-    for (const dimension of dimensions) {
+    for (const [dimension, byPlatform] of [...(cells.get(series.key) ?? new Map<string, Map<string, Map<string, Daily>>>())].sort(([a], [b]) => a.localeCompare(b))) {
       for (const platform of [...flow.platforms, null]) {
-        const values = cells.get(groupKey(series.key, dimension, platform));
+        const values = byPlatform.get(platform ?? TOGETHER);
         if (!values || values.size < 2) continue;
         const o = platform === null ? all : optionsFor(all, platform);
         const total = totalOf(values.values(), n);

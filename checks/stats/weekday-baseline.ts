@@ -44,17 +44,25 @@ export function weekdayBaseline(values: ArrayLike<number>, index: number, option
   if (userWeights !== undefined && userWeights.length !== values.length) {
     throw new Error(`weekdayBaseline userWeights must have one entry per value (${values.length}), got ${userWeights.length}`);
   }
-  const picked: number[] = [];
+  // Called for every day of every series a check judges: the picks go to a reused buffer, sorted by insertion (k is small).
+  if (scratch.length < weeks) scratch = new Float64Array(Math.max(weeks, 2 * scratch.length));
+  let used = 0;
   for (let j = 1; j <= weeks; j++) {
     const t = index - j * period;
     if (t < 0) break;
     const v = values[t]!;
     if (Number.isNaN(v) || (userWeights !== undefined && !(userWeights[t]! > 0))) continue;
-    picked.push(v);
+    let k = used++;
+    while (k > 0 && scratch[k - 1]! > v) {
+      scratch[k] = scratch[k - 1]!;
+      k--;
+    }
+    scratch[k] = v;
   }
-  if (picked.length === 0) return { expected: Number.NaN, used: 0 };
-  picked.sort((a, b) => a - b);
-  const mid = picked.length >> 1;
-  const expected = picked.length % 2 === 1 ? picked[mid]! : (picked[mid - 1]! + picked[mid]!) / 2;
-  return { expected, used: picked.length };
+  if (used === 0) return { expected: Number.NaN, used: 0 };
+  const mid = used >> 1;
+  const expected = used % 2 === 1 ? scratch[mid]! : (scratch[mid - 1]! + scratch[mid]!) / 2;
+  return { expected, used };
 }
+
+let scratch = new Float64Array(16);

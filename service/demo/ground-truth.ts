@@ -18,7 +18,7 @@ import {
   rolloutComplete,
 } from './model.js';
 
-export type CheckId = 'volume' | 'seasonal' | 'conversion' | 'schema' | 'parity' | 'freshness';
+export type CheckId = 'volume' | 'seasonal' | 'conversion' | 'schema' | 'parity' | 'freshness' | 'segments';
 export type CauseLabel = 'data_delay' | 'release' | 'platform' | 'segment' | 'calendar' | 'behaviour';
 
 export interface Incident {
@@ -190,7 +190,7 @@ const ALL_INCIDENTS: readonly Incident[] = [
     segment: { dimension: 'country', value: 'CA' },
     firstDay: INCIDENT_DAYS.canadaDeclines.from,
     lastDay: INCIDENT_DAYS.canadaDeclines.to,
-    expectedChecks: ['conversion'],
+    expectedChecks: ['conversion', 'segments'],
     alsoAcceptable: ['seasonal'],
     expectedCause: 'segment',
   },
