@@ -136,10 +136,10 @@ interface Test {
   platform: string | null;
   seriesKey: string;
   o: Options;
-  /** The value's people (conversion: its rate) on each day, for the excerpt. */
-  shown: Float64Array;
-  /** Expected value of `shown` on each day where known (NaN elsewhere). */
-  expectedShown: Float64Array;
+  /** The value's and its dimension's daily counts, and the expected share (log scale) of each recent day, for the excerpt. */
+  own: Daily;
+  total: Daily;
+  expectedY: Float64Array;
   observed: number;
   expected: number;
   z: number;
@@ -268,6 +268,27 @@ function expectedAt(y: Float64Array, index: number): number {
   return result.used >= MIN_SAME_WEEKDAY ? result.expected : Number.NaN;
 }
 
+/** What the value would be on day i at its usual share of the flow: people, or a rate beside the flow's (NaN when unknown). */
+function expectedOn(conversion: boolean, total: Daily, expectedY: Float64Array, i: number): number {
+  if (!Number.isFinite(expectedY[i]!) || Number.isNaN(total.num[i]!)) return Number.NaN;
+  if (!conversion) return (total.num[i]! + 1) * Math.exp(expectedY[i]!) - 1;
+  const odds = Math.exp(logOdds(total.num[i]!, total.den[i]!) + expectedY[i]!);
+  return odds / (1 + odds);
+}
+
+/** The value's people (conversion: its rate) on each day, for the excerpt; NaN where unknown. */
+function shownOf(conversion: boolean, own: Daily, total: Daily, n: number): Float64Array {
+  const shown = new Float64Array(n).fill(Number.NaN);
+  for (let i = 0; i < n; i++) {
+    if (Number.isNaN(total.num[i]!)) continue;
+    const num = Number.isNaN(own.num[i]!) ? 0 : own.num[i]!;
+    const den = Number.isNaN(own.den[i]!) ? 0 : own.den[i]!;
+    if (!conversion) shown[i] = num;
+    else if (den > 0) shown[i] = num / den;
+  }
+  return shown;
+}
+
 /**
  * Judges the last day of one value's series by its share of its dimension's total;
  * undefined when the day is unknown, the value had no history or the spread too few days.
@@ -278,7 +299,6 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   const conversion = series.kind === 'conversion';
   const skip = baselineExclusions(seriesKey, input.anomalous, input.calendar);
   const y = new Float64Array(n).fill(Number.NaN);
-  const shown = new Float64Array(n).fill(Number.NaN);
   let seen = false;
   for (let i = 0; i < n; i++) {
     if (Number.isNaN(total.num[i]!)) continue;
@@ -289,15 +309,15 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
     seen = true;
     if (conversion) {
       if (!(den > 0 && total.den[i]! > den)) continue;
-      shown[i] = num / den;
       y[i] = logOdds(num, den) - logOdds(total.num[i]!, total.den[i]!);
     } else {
-      shown[i] = num;
       y[i] = Math.log((num + 1) / (total.num[i]! + 1));
     }
   }
   if (Number.isNaN(y[last]!)) return undefined;
-  const base = Float64Array.from(y);
+  const observedY = y[last]!;
+  // Left-out days (calendar, anomalous) neither serve as anyone's baseline nor add to the spread.
+  const base = y;
   for (let i = 0; i < last; i++) if (skip.has(input.days[i]!)) base[i] = Number.NaN;
   const expectedY = new Float64Array(n).fill(Number.NaN);
   const residuals: number[] = [];
@@ -311,16 +331,7 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   const den = own.den[last]!;
   const restNum = total.num[last]! - num;
   const restDen = total.den[last]! - den;
-  // What the value would be today at its usual share of the flow: people, or a rate beside the flow's.
-  const expectedOf = (i: number) => {
-    if (!Number.isFinite(expectedY[i]!) || Number.isNaN(total.num[i]!)) return Number.NaN;
-    if (!conversion) return (total.num[i]! + 1) * Math.exp(expectedY[i]!) - 1;
-    const odds = Math.exp(logOdds(total.num[i]!, total.den[i]!) + expectedY[i]!);
-    return odds / (1 + odds);
-  };
-  const expectedShown = new Float64Array(n).fill(Number.NaN);
-  for (let i = Math.max(0, last - EXCERPT_DAYS + 1); i <= last; i++) expectedShown[i] = expectedOf(i);
-  const expected = expectedShown[last]!;
+  const expected = expectedOn(conversion, total, expectedY, last);
   let floor: number;
   let observed: number;
   let share: number;
@@ -354,11 +365,12 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   // count's own z on Anscombe's square-root scale (F. J. Anscombe 1948, Biometrika 35:246-254; variance 1
   // for a Poisson count), widened by 1 / (1 - share) as the value is part of the total.
   const countZ = (2 * (Math.sqrt(counts.observed + 0.375) - Math.sqrt(Math.max(counts.expected, 0) + 0.375))) / Math.sqrt(Math.max(1 - share, 1e-9));
-  const zScore = Math.max((y[last]! - center) / spread, countZ);
+  const zScore = Math.max((observedY - center) / spread, countZ);
   if (!Number.isFinite(zScore)) return undefined;
   return {
-    shown,
-    expectedShown,
+    own,
+    total,
+    expectedY,
     observed,
     expected,
     z: zScore,
@@ -384,7 +396,12 @@ function finding(input: CheckInput, test: Test, adjusted: number, tests: number)
   const { severity, calendar } = calendarSeverity(input, 'down', severityOf(test));
   const since = anomalousSince(input, test.seriesKey) ?? input.day;
   const flagged = new Set([...(input.anomalous[test.seriesKey] ?? []), input.day]);
-  const band = (factor: number) => test.expectedShown.map((e) => e * factor);
+  const n = input.days.length;
+  const conversionSeries = test.series.kind === 'conversion';
+  const shown = shownOf(conversionSeries, test.own, test.total, n);
+  const expectedShown = new Float64Array(n).fill(Number.NaN);
+  for (let i = Math.max(0, n - EXCERPT_DAYS); i < n; i++) expectedShown[i] = expectedOn(conversionSeries, test.total, test.expectedY, i);
+  const band = (factor: number) => expectedShown.map((e) => e * factor);
   const platform = test.platform ?? 'all platforms';
   const common = {
     platform,
@@ -428,7 +445,7 @@ function finding(input: CheckInput, test: Test, adjusted: number, tests: number)
     severity,
     message,
     seriesKey: test.seriesKey,
-    excerpt: excerpt(input.days, test.shown, EXCERPT_DAYS, { low: band(1 - test.o.max_drop), high: band(1 / (1 - test.o.max_drop)) }, flagged),
+    excerpt: excerpt(input.days, shown, EXCERPT_DAYS, { low: band(1 - test.o.max_drop), high: band(1 / (1 - test.o.max_drop)) }, flagged),
     ...(calendar !== undefined ? { calendar } : {}),
     evidence: {
       dimension: test.dimension,
