@@ -99,7 +99,7 @@ export const EXPECTATIONS: Record<IncidentType, { checks: string[]; label: Cause
   platform_event_twice: { checks: ['volume'], label: 'platform', alert: true, what: 'an event sent twice per occurrence on one platform' },
   declared_holiday: { checks: ['volume'], label: 'calendar', alert: false, what: 'a declared holiday (fewer people everywhere)' },
   undeclared_holiday: { checks: ['volume', 'seasonal'], label: 'behaviour', alert: true, what: 'an undeclared holiday (fewer people everywhere)' },
-  segment_drop: { checks: ['volume'], label: 'segment', alert: true, what: 'one dimension value down 50-80%, the total less than the volume thresholds' },
+  segment_drop: { checks: ['segments'], label: 'segment', alert: true, what: 'one dimension value down 50-80%, the total less than the volume thresholds' },
   early_stop: { checks: ['freshness'], label: 'data_delay', alert: true, what: 'data stops early on the newest day' },
   late_rows: { checks: ['freshness'], label: 'data_delay', alert: true, what: 'late rows restate a past day on one platform' },
   conversion_regression: { checks: ['conversion', 'seasonal'], label: 'behaviour', alert: true, what: 'one step converts worse on every platform' },
