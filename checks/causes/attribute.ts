@@ -163,17 +163,89 @@ export interface Attribution {
 }
 
 export function attribute(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution {
+  const delayed = dataDelay(finding, input, dayFindings);
+  if (delayed) return delayed;
+  // A finding about every platform at once is first placed on the platform that moved, if one did: the tests
+  // below then ask that platform's versions, as they would a finding of its own.
+  const placed = finding.platform === null ? movedPlatform(finding, input) : undefined;
+  const own = placed ? { ...finding, platform: placed } : finding;
   return (
-    dataDelay(finding, input, dayFindings) ??
-    release(finding, input) ??
-    platformOnly(finding, input) ??
+    release(own, input) ??
+    trackingBreak(own, input, dayFindings) ??
+    platformOnly(own, input) ??
     // A declared low day that dropped (or high day that rose) is explained by the calendar: drilling into
     // segments would only find who the holiday affects. Only a release or a lone platform overrides it.
-    (announced(finding, input) ? calendar(finding, input) : undefined) ??
-    segment(finding, input) ??
-    calendar(finding, input) ??
-    behaviour(finding, input)
+    calendar(own, input) ??
+    segment(own, input) ??
+    behaviour(own, input)
   );
+}
+
+/**
+ * Tracking breaks: what people cannot do by changing their mind. Parameters
+ * changing shape, an event sent more or less often per person, a series or a
+ * step going silent. A day's calendar or people's behaviour never explains
+ * them.
+ */
+export function isTrackingBreak(finding: Finding): boolean {
+  return (
+    finding.check === 'schema' ||
+    finding.kind === 'silent' ||
+    finding.kind === 'absent_step' ||
+    finding.kind === 'absent_event' ||
+    finding.metric.includes('per_person')
+  );
+}
+
+/** What a tracking break is about across platforms: the same check, kind and subject. */
+const breakKey = (finding: Finding) => `${finding.check}|${finding.kind}|${finding.subject.name}|${finding.direction}`;
+
+/**
+ * A tracking break no version explains, seen on one platform only that day
+ * (no finding of the same kind about the same subject on another platform):
+ * the platform's tracking, not people, and not the calendar.
+ */
+function trackingBreak(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
+  const platform = finding.platform;
+  if (platform === null || !isTrackingBreak(finding)) return undefined;
+  const key = breakKey(finding);
+  const elsewhere = dayFindings.filter((f) => f.platform !== null && f.platform !== platform && isTrackingBreak(f) && breakKey(f) === key);
+  if (elsewhere.length > 0) return undefined;
+  const others = input.flow.platforms.filter((p) => p !== platform);
+  const versions = versionsOn(input, platform, input.day);
+  const versionNote = versions.length <= 1 ? `${platform} sends no app versions to tell apart` : 'no single app version explains it';
+  return {
+    groupKey: `platform|${platform}`,
+    cause: {
+      label: 'platform',
+      confidence: 0.8,
+      sentence: `only ${platform} shows it${others.length > 0 ? ` (${others.join(', ')} do not)` : ''}: a tracking change on ${platform}, ${versionNote}`,
+      platform,
+      version: null,
+      evidence: { finding: finding.kind, subject: finding.subject.name, versions: versions.length },
+    },
+  };
+}
+
+/**
+ * The platform a finding about every platform comes from: the only one whose
+ * measure moved at least `minZ` standard errors while every other moved at
+ * most `otherPlatformsShare` as much (relative change). Undefined when the
+ * platforms moved alike, or the finding has no measure to compare.
+ */
+function movedPlatform(finding: Finding, input: CheckInput): string | undefined {
+  const found = causeMeasureOf(finding, input.flow);
+  if (!found || input.flow.platforms.length < 2) return undefined;
+  const measure = acrossSlices(found);
+  const days = baselineDays(input);
+  const sign = finding.direction === 'up' ? 1 : finding.direction === 'down' ? -1 : 0;
+  const changes = input.flow.platforms.map((platform) => ({ platform, change: relativeChange(input, measure, all(platform), days) }));
+  const moved = changes.filter((c) => Number.isFinite(c.change) && (sign === 0 || Math.sign(c.change) === sign));
+  if (moved.length === 0) return undefined;
+  const lead = moved.reduce((a, b) => (Math.abs(b.change) > Math.abs(a.change) ? b : a));
+  const rest = changes.filter((c) => c.platform !== lead.platform && Number.isFinite(c.change));
+  if (rest.some((c) => Math.abs(c.change) > CAUSE_THRESHOLDS.otherPlatformsShare * Math.abs(lead.change))) return undefined;
+  return Math.abs(changeZ(input, measure, all(lead.platform), days)) >= CAUSE_THRESHOLDS.minZ ? lead.platform : undefined;
 }
 
 function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
@@ -432,25 +504,24 @@ function segment(finding: Finding, input: CheckInput): Attribution | undefined {
   };
 }
 
-function announced(finding: Finding, input: CheckInput): boolean {
-  return input.calendar.some((entry) => entry.day === input.day && (entry.expect === 'low' ? finding.direction === 'down' : finding.direction === 'up'));
-}
-
+/**
+ * A declared day explains only what it announces: a move of people or
+ * conversion in the announced direction (fewer on a low day, more on a high
+ * one). Never a tracking break, and never a move the other way.
+ */
 function calendar(finding: Finding, input: CheckInput): Attribution | undefined {
-  const entry = input.calendar.find((c) => c.day === input.day);
-  if (!entry && !finding.calendar) return undefined;
-  const note = entry?.note ?? finding.calendar!;
-  const expected = entry?.expect;
-  const agrees = expected === undefined || (expected === 'low' ? finding.direction === 'down' : finding.direction === 'up');
+  if (isTrackingBreak(finding) || !causeMeasureOf(finding, input.flow)) return undefined;
+  const entry = input.calendar.find((c) => c.day === input.day && (c.expect === 'low' ? finding.direction === 'down' : finding.direction === 'up'));
+  if (!entry) return undefined;
   return {
-    groupKey: `calendar|${note}`,
+    groupKey: `calendar|${entry.note}`,
     cause: {
       label: 'calendar',
-      confidence: agrees ? 0.85 : 0.4,
-      sentence: `${input.day} is declared in the calendar: ${note}${expected ? ` (expected ${expected})` : ''}`,
+      confidence: 0.85,
+      sentence: `${input.day} is declared in the calendar: ${entry.note} (expected ${entry.expect})`,
       platform: null,
       version: null,
-      evidence: { note, expected: expected ?? null },
+      evidence: { note: entry.note, expected: entry.expect },
     },
   };
 }
