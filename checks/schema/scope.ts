@@ -227,9 +227,11 @@ export class EventScope {
    * versions (a release: "ios 5.2.0"). That last test has no floor: the
    * remaining versions may be small on a weekend, and their statistics (a
    * Wilson bound, a z-test) already widen with fewer events. Otherwise the
-   * versions not already explained are judged pooled, and a flag there is a
-   * platform finding (version null): every version changed at once, or the
-   * affected versions are too small to judge alone.
+   * versions not already explained are judged pooled. A flag there belongs to
+   * one version below the floor when that version alone breaks the rule and
+   * the pool without it is clean (`soleSource`: a release on its first days);
+   * otherwise it is a platform finding (version null): every version changed
+   * at once.
    *
    * `judge(versions, floor)` returns null when the versions cannot be judged.
    */
@@ -252,8 +254,31 @@ export class EventScope {
     const residual = this.versions.filter((version) => !specific.includes(version));
     if (residual.length > 0) {
       const verdict = judged(residual);
-      if (verdict?.flagged) out.push({ version: null, versions: residual, verdict });
+      const small = verdict?.flagged ? soleSource(residual, judged) : undefined;
+      if (small !== undefined) out.push({ version: small, versions: [small], verdict: judged([small], false)! });
+      else if (verdict?.flagged) out.push({ version: null, versions: residual, verdict });
     }
     return out;
   }
+}
+
+/**
+ * The one version a pooled flag comes from, however few its events: the
+ * version breaks the rule judged alone without the floor, and the pool
+ * without it is clean. A release on its first days (a few percent of the
+ * platform) carries the whole symptom: the symptom's share of the platform
+ * is the version's share, not a change of every version. Undefined when no
+ * version, or more than one, fits.
+ */
+function soleSource(versions: readonly string[], judged: (versions: readonly string[], floor?: boolean) => Verdict | null): string | undefined {
+  if (versions.length < 2) return undefined;
+  const sources = versions.filter((version) => {
+    if (judged([version], false)?.flagged !== true) return false;
+    const rest = judged(
+      versions.filter((v) => v !== version),
+      false,
+    );
+    return rest !== null && !rest.flagged;
+  });
+  return sources.length === 1 ? sources[0] : undefined;
 }

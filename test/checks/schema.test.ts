@@ -95,6 +95,17 @@ describe('schema: contract and renames', () => {
     expect(summary(run(input, { min_events: 20 }))).toEqual(['missing_required ios 5.0.2 zone_selected.fare_zone warn']);
   });
 
+  // Issue 13: on its first day a release had 21 of 216 events, under the floor, and its rename was the platform's.
+  it('names a release below the floor when the platform\'s break is all in it: the symptom\'s share is the version\'s', () => {
+    const input = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 38, keys: zoneKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    const findings = run(input);
+    expect(summary(findings), explain(input)).toEqual(['renamed ios 5.2.0 zone_selected.fare_zone warn']);
+    expect(findings[0]!.message).toBe('ios 5.2.0 sends `zone` instead of `fare_zone` in zone_selected: `zone` in 21 of 21 events, `fare_zone` in 0');
+    // Broken in two small versions at once, it stays the platform's.
+    const two = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 21, keys: renamedKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    expect(summary(run(two)), explain(two)).toEqual(['renamed ios null zone_selected.fare_zone warn']);
+  });
+
   it('reports a change in every version at once as one platform finding (version null)', () => {
     const broken = zoneKeys({ fare_zone: { share: 0.5, values: { A: 0.45, AB: 0.4, ABC: 0.15 } } });
     const input = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 600, keys: broken }, '5.0.2': { total: 60, keys: broken } }));
