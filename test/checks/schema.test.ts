@@ -190,6 +190,20 @@ describe('schema: drift against recent days', () => {
     expect(summary(run(stray)), explain(stray)).toEqual(['new_key web null screen_shown.session_tag note']);
   });
 
+  // Issue 13: the values of a key a release had just renamed came back as "new values" notes on the next days.
+  it('leaves the values of a key seen for only a few days to its arrival: not news yet', () => {
+    const { view } = referrerKeys();
+    const source = (values: Record<string, number>) => ({ view: view!, source: { share: 0.3, values } });
+    // `referrer` became `source` three days before the judged day, which brings a value `source` had not shown.
+    const young = (i: number) => (i >= LAST - 3 ? source({ home: 0.5, menu: 0.3, notification: 0.2 }) : referrerKeys());
+    const input = checkInput(passFlow(), DAYS, webViews(source({ home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 }), young));
+    expect(run(input).filter((f) => f.subject.name === 'screen_shown.source'), explain(input)).toEqual([]);
+    // Sent for three weeks, the key's new value is news.
+    const settled = (i: number) => (i >= LAST - 21 ? source({ home: 0.5, menu: 0.3, notification: 0.2 }) : referrerKeys());
+    const later = checkInput(passFlow(), DAYS, webViews(source({ home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 }), settled));
+    expect(summary(run(later).filter((f) => f.subject.name === 'screen_shown.source')), explain(later)).toEqual(['new_value web null screen_shown.source note']);
+  });
+
   it('reports new values of a low-cardinality key without an enum (an enum turns them into contract breaks)', () => {
     const input = checkInput(passFlow(), DAYS, webViews(referrerKeys({ referrer: { share: 0.3, values: { home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 } } })));
     const findings = run(input);
