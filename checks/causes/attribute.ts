@@ -313,7 +313,8 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
   const usual = rate(baselineOf(input, measure, all(platform), days));
   const today = rate(measureOn(input, measure, input.day, all(platform)));
   if (!Number.isFinite(usual) || !Number.isFinite(today) || today === usual) return undefined;
-  let best: { version: string; own: Ratio; rest: Ratio; pValue: number } | undefined;
+  const baseline = baselineOf(input, measure, all(platform), days);
+  let best: { version: string; own: Ratio; rest: Ratio; reference: Ratio; pValue: number } | undefined;
   for (const version of versions) {
     const own = byVersion.get(version)!;
     if (own.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
@@ -323,25 +324,32 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
         (acc, v) => ({ num: acc.num + byVersion.get(v)!.num, den: acc.den + byVersion.get(v)!.den, spread: (acc.spread ?? 0) + (byVersion.get(v)!.spread ?? 0) }),
         { num: 0, den: 0, spread: 0 } as Ratio,
       );
-    if (rest.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
+    // Few people left on the other versions (a release most of the platform has taken): the version is compared
+    // with the platform's usual self over the baseline days instead.
+    const reference = rest.den >= CAUSE_THRESHOLDS.minVersionPeople ? rest : baseline;
+    if (!(reference.den > 0)) continue;
     // The version must sit on the side the platform moved to.
-    if (Math.sign(rate(own) - rate(rest)) !== Math.sign(today - usual)) continue;
-    const { pValue } = compare(measure, own, rest);
-    if (!best || pValue < best.pValue) best = { version, own, rest, pValue };
+    if (Math.sign(rate(own) - rate(reference)) !== Math.sign(today - usual)) continue;
+    const { pValue } = compare(measure, own, reference);
+    if (!best || pValue < best.pValue) best = { version, own, rest, reference, pValue };
   }
   if (!best || best.pValue > CAUSE_THRESHOLDS.releasePValue) return undefined;
-  // The other versions must look like the platform's usual self: the change lives in this version.
-  const restShare = (rate(best.rest) - usual) / (today - usual);
-  if (!(restShare <= CAUSE_THRESHOLDS.restShareOfChange)) return undefined;
+  // The other versions must look like the platform's usual self: they carry at most `restShareOfChange` of the
+  // platform's change, or they are within `minZ` standard errors of their usual level (a version with a tenth of
+  // the platform moves it a tenth as much as it moved, and the others' noise can be as large).
+  const restShare = best.rest.den > 0 ? (rate(best.rest) - usual) / (today - usual) : 0;
+  const restUsual = best.rest.den === 0 || restShare <= CAUSE_THRESHOLDS.restShareOfChange || Math.abs(compare(measure, best.rest, baseline).z) < CAUSE_THRESHOLDS.minZ;
+  if (!restUsual) return undefined;
   const seen = firstSeen(input, platform, best.version);
   const adoption = shareOfPlatform(input, platform, best.version);
   const ownRate = level(measure, best.own);
-  const what = releaseEffect(input, measure, best.own, best.rest);
+  const against = best.reference === best.rest ? 'on other versions' : `usually on ${platform}`;
+  const what = releaseEffect(input, measure, best.own, best.reference, against);
   return {
     groupKey: `release|${platform}|${best.version}`,
     cause: {
       label: 'release',
-      confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, restShare))),
+      confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, Number.isFinite(restShare) ? restShare : 0))),
       sentence: `${platform} ${best.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${what}`,
       platform,
       version: best.version,
@@ -353,7 +361,8 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
         versionNum: best.own.num,
         versionDen: best.own.den,
         versionRate: ownRate,
-        restRate: level(measure, best.rest),
+        restRate: level(measure, best.reference),
+        restPeople: best.rest.den,
         platformUsual: measure.kind === 'step_seconds' ? Math.exp(usual) : usual,
         pValue: best.pValue,
       },
@@ -366,7 +375,7 @@ function withoutPrefix(text: string, prefix: string): string {
 }
 
 /** What the version did, in words and numbers, against the other versions of its platform. */
-function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ratio): string {
+function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ratio, against: string): string {
   const stopped = own.num === 0 && rest.num > 0;
   const restRate = formatRatio(measure, rate(rest));
   const steps = input.flow.steps.map((step) => step.name);
@@ -374,23 +383,23 @@ function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ra
     case 'step_conversion': {
       const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
       const counts = `${formatCount(own.num)} of ${formatCount(own.den)} people at ${from} reached ${to}`;
-      return stopped ? `stopped sending the ${to} step: ${counts}, against ${restRate} on other versions` : `${counts} (${formatRatio(measure, rate(own))}), against ${restRate} on other versions`;
+      return stopped ? `stopped sending the ${to} step: ${counts}, against ${restRate} ${against}` : `${counts} (${formatRatio(measure, rate(own))}), against ${restRate} ${against}`;
     }
     case 'step_people': {
       const step = steps[measure.step]!;
       const counts = `${formatCount(own.num)} people at ${step} for ${formatCount(own.den)} entering`;
-      return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+      return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering ${against}` : `${counts}, against ${restRate} per person entering ${against}`;
     }
     case 'step_seconds': {
       const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
-      return `takes a median ${formatNumber(level(measure, own))} s from ${from} to ${to} (${formatCount(own.den)} people timed), against ${formatNumber(level(measure, rest))} s on other versions`;
+      return `takes a median ${formatNumber(level(measure, own))} s from ${from} to ${to} (${formatCount(own.den)} people timed), against ${formatNumber(level(measure, rest))} s ${against}`;
     }
     case 'event_people': {
       const counts = `${formatCount(own.num)} people sending ${measure.event} for ${formatCount(own.den)} entering`;
-      return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+      return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering ${against}` : `${counts}, against ${restRate} per person entering ${against}`;
     }
     default:
-      return `${measure.label} ${formatRatio(measure, rate(own))} (${formatCount(own.num)} over ${formatCount(own.den)}), against ${restRate} on other versions`;
+      return `${measure.label} ${formatRatio(measure, rate(own))} (${formatCount(own.num)} over ${formatCount(own.den)}), against ${restRate} ${against}`;
   }
 }
 

@@ -226,6 +226,25 @@ describe('analyseCauses', () => {
       expect(onlyDraft(analyseCauses(input, [renamed, riderConversion('android')])).symptoms).toHaveLength(2);
     });
 
+    it('names a release at low adoption: the other versions moved by no more than their noise', () => {
+      // 7.4.0 has 5% of android (100 people) and stopped sending rider; the other versions are 3% down, a
+      // 2.6-sigma wobble of 1,900 people that is 38% of the platform's move.
+      const versions = { android: [{ version: '7.3.0', share: 0.95 }, { version: '7.4.0', share: 0.05 }] };
+      const input = buildInput({ versions, breakage: ({ platform, version }) => (platform !== 'android' ? {} : version === '7.4.0' ? { rider: 0 } : { rider: 0.97 }) });
+      expect(onlyDraft(analyseCauses(input, [riderConversion('android')])).cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      // The other versions down 10% (an 8.6-sigma move) is the platform's own.
+      const both = buildInput({ versions, breakage: ({ platform, version }) => (platform !== 'android' ? {} : version === '7.4.0' ? { rider: 0 } : { rider: 0.9 }) });
+      expect(onlyDraft(analyseCauses(both, [riderConversion('android')])).cause.label).not.toBe('release');
+    });
+
+    it('names a release most of the platform has taken, with too few people left on the others to compare', () => {
+      const versions = { android: [{ version: '7.3.0', share: 0.01 }, { version: '7.4.0', share: 0.99 }] };
+      const input = buildInput({ versions, breakage: brokenRelease });
+      const draft = onlyDraft(analyseCauses(input, [riderConversion('android')]));
+      expect(draft.cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      expect(draft.cause.sentence).toContain('against 80.0% usually on android');
+    });
+
     it('places an all-platforms end-to-end finding on the platform and version that moved before labelling it', () => {
       // android 7.4.0 (40% of android) stopped sending rider: the flow's completion over every platform fell,
       // android's by 40%, web's and ios's not at all.
