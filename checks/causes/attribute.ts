@@ -170,7 +170,7 @@ export function attribute(finding: Finding, input: CheckInput, dayFindings: read
   const placed = finding.platform === null ? movedPlatform(finding, input) : undefined;
   const own = placed ? { ...finding, platform: placed } : finding;
   return (
-    release(own, input) ??
+    release(own, input, dayFindings) ??
     trackingBreak(own, input, dayFindings) ??
     platformOnly(own, input) ??
     // A declared low day that dropped (or high day that rose) is explained by the calendar: drilling into
@@ -285,22 +285,49 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   };
 }
 
-function release(finding: Finding, input: CheckInput): Attribution | undefined {
+/**
+ * The earlier version a schema break of `version` comes from: the same
+ * series (check family, event, key, platform) was judged anomalous for a
+ * version first seen before this one, on a day of the history or today. A
+ * later release that keeps a renamed key or a new value carries on the
+ * release that brought it. Undefined when no earlier version had it.
+ */
+function broughtBy(finding: Finding, platform: string, version: string, input: CheckInput, dayFindings: readonly Finding[]): string | undefined {
+  const prefix = finding.seriesKey.slice(0, finding.seriesKey.lastIndexOf(':') + 1);
+  const candidates = new Set<string>();
+  for (const [key, days] of Object.entries(input.anomalous)) if (key.startsWith(prefix) && days.length > 0) candidates.add(key.slice(prefix.length));
+  for (const f of dayFindings) if (f.check === 'schema' && f.version !== null && f.seriesKey.startsWith(prefix)) candidates.add(f.version);
+  candidates.delete(version);
+  candidates.delete(ALL_VERSIONS);
+  const own = firstSeen(input, platform, version);
+  let best: { version: string; seen: Day } | undefined;
+  for (const candidate of candidates) {
+    const seen = firstSeen(input, platform, candidate);
+    if (seen === undefined || own === undefined || seen >= own) continue;
+    if (!best || seen < best.seen) best = { version: candidate, seen };
+  }
+  return best?.version;
+}
+
+function release(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
   const platform = finding.platform;
   if (platform === null) return undefined;
   if (finding.check === 'schema' && finding.version !== null && finding.version !== ALL_VERSIONS) {
-    const seen = firstSeen(input, platform, finding.version);
-    const adoption = shareOfPlatform(input, platform, finding.version);
+    const earlier = broughtBy(finding, platform, finding.version, input, dayFindings);
+    const version = earlier ?? finding.version;
+    const seen = firstSeen(input, platform, version);
+    const adoption = shareOfPlatform(input, platform, version);
+    // The schema message names its version already: say it once.
+    const what = withoutPrefix(finding.message, `${platform} ${finding.version} `);
     return {
-      groupKey: `release|${platform}|${finding.version}`,
+      groupKey: `release|${platform}|${version}`,
       cause: {
         label: 'release',
         confidence: 0.9,
-        // The schema message names the version already: say it once.
-        sentence: `${platform} ${finding.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${withoutPrefix(finding.message, `${platform} ${finding.version} `)}`,
+        sentence: `${platform} ${version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${earlier ? `brought a change that ${finding.version} keeps: ${finding.message}` : what}`,
         platform,
-        version: finding.version,
-        evidence: { version: finding.version, firstSeen: seen ?? null, adoption, finding: finding.kind },
+        version,
+        evidence: { version, firstSeen: seen ?? null, adoption, finding: finding.kind, ...(earlier ? { keptBy: finding.version } : {}) },
       },
     };
   }

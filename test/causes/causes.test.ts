@@ -226,6 +226,22 @@ describe('analyseCauses', () => {
       expect(onlyDraft(analyseCauses(input, [renamed, riderConversion('android')])).symptoms).toHaveLength(2);
     });
 
+    it('keeps a later release that carries a renamed key on the release that brought it', () => {
+      // 7.3.0 renamed `view` (its series was judged anomalous); 7.4.0, first seen later, keeps the new key.
+      const base = buildInput();
+      const input = {
+        ...base,
+        events: base.events.filter((r) => !(r.version === '7.4.0' && r.day < '2026-10-10')),
+        anomalous: { 'schema:presence:screen_shown.view:android:7.3.0': ['2026-10-01', '2026-10-02'] },
+      };
+      const kept = { ...renamed, seriesKey: 'schema:presence:screen_shown.view:android:7.4.0' };
+      const draft = onlyDraft(analyseCauses(input, [kept]));
+      expect(draft.cause).toMatchObject({ label: 'release', version: '7.3.0', evidence: { keptBy: '7.4.0' } });
+      expect(draft.fingerprint).toBe('monthly_pass|release|version|android|7.3.0');
+      // With no earlier version showing it, 7.4.0 is the release.
+      expect(onlyDraft(analyseCauses({ ...input, anomalous: {} }, [kept])).cause.version).toBe('7.4.0');
+    });
+
     it('names a release at low adoption: the other versions moved by no more than their noise', () => {
       // 7.4.0 has 5% of android (100 people) and stopped sending rider; the other versions are 3% down, a
       // 2.6-sigma wobble of 1,900 people that is 38% of the platform's move.

@@ -101,9 +101,15 @@ describe('schema: contract and renames', () => {
     const findings = run(input);
     expect(summary(findings), explain(input)).toEqual(['renamed ios 5.2.0 zone_selected.fare_zone warn']);
     expect(findings[0]!.message).toBe('ios 5.2.0 sends `zone` instead of `fare_zone` in zone_selected: `zone` in 21 of 21 events, `fare_zone` in 0');
-    // Broken in two small versions at once, it stays the platform's.
+    // Carried by two small versions (a release and a later one that kept the change), it is named by the one that
+    // appeared first (5.0.2 is in the history, 5.2.0 is new today).
     const two = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 21, keys: renamedKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
-    expect(summary(run(two)), explain(two)).toEqual(['renamed ios null zone_selected.fare_zone warn']);
+    const pooled = run(two);
+    expect(summary(pooled), explain(two)).toEqual(['renamed ios 5.0.2 zone_selected.fare_zone warn']);
+    expect(pooled[0]!.evidence!.versions).toBe('5.0.2, 5.2.0');
+    // In every version at once, it is the platform's.
+    const every = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: renamedKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    expect(summary(run(every)), explain(every)).toEqual(['renamed ios null zone_selected.fare_zone warn']);
   });
 
   it('reports a change in every version at once as one platform finding (version null)', () => {
