@@ -298,7 +298,7 @@ describe('analyseCauses', () => {
       platform: 'web',
       direction: 'up',
       severity: 'note',
-      message: 'web sends new values of `method` with pass_purchase_result: wallet in 20.0% of 1,100 events',
+      message: 'web sends new values of `method` with pass_purchase_result: voucher in 20.0% of 1,100 events',
     });
 
     it.each([
