@@ -337,10 +337,10 @@ function release(finding: Finding, input: CheckInput, dayFindings: readonly Find
   if (versions.length < 2) return undefined;
   const byVersion = new Map(versions.map((version) => [version, measureOn(input, measure, input.day, { platform, version, dimension: '', value: '' })]));
   const days = baselineDays(input);
-  const usual = rate(baselineOf(input, measure, all(platform), days));
+  const baseline = baselineOf(input, measure, all(platform), days);
+  const usual = rate(baseline);
   const today = rate(measureOn(input, measure, input.day, all(platform)));
   if (!Number.isFinite(usual) || !Number.isFinite(today) || today === usual) return undefined;
-  const baseline = baselineOf(input, measure, all(platform), days);
   let best: { version: string; own: Ratio; rest: Ratio; reference: Ratio; pValue: number } | undefined;
   for (const version of versions) {
     const own = byVersion.get(version)!;
