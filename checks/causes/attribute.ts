@@ -165,20 +165,90 @@ export interface Attribution {
 export function attribute(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution {
   // A `segments` finding already judges one value by its share of its dimension on the same platform and day:
   // a release, a platform or a pipeline fault moves every value alike and never shows there.
-  if (finding.check === 'segments') {
-    return (announced(finding, input) ? calendar(finding, input) : undefined) ?? namedSegment(finding, input) ?? behaviour(finding, input);
-  }
+  if (finding.check === 'segments') return calendar(finding, input) ?? namedSegment(finding, input) ?? behaviour(finding, input);
+  const delayed = dataDelay(finding, input, dayFindings);
+  if (delayed) return delayed;
+  // A finding about every platform at once is first placed on the platform that moved, if one did: the tests
+  // below then ask that platform's versions, as they would a finding of its own.
+  const placed = finding.platform === null ? movedPlatform(finding, input) : undefined;
+  const own = placed ? { ...finding, platform: placed } : finding;
   return (
-    dataDelay(finding, input, dayFindings) ??
-    release(finding, input) ??
-    platformOnly(finding, input) ??
+    release(own, input, dayFindings) ??
+    trackingBreak(own, input, dayFindings) ??
+    platformOnly(own, input) ??
     // A declared low day that dropped (or high day that rose) is explained by the calendar: drilling into
     // segments would only find who the holiday affects. Only a release or a lone platform overrides it.
-    (announced(finding, input) ? calendar(finding, input) : undefined) ??
-    segment(finding, input) ??
-    calendar(finding, input) ??
-    behaviour(finding, input)
+    calendar(own, input) ??
+    segment(own, input) ??
+    behaviour(own, input)
   );
+}
+
+/**
+ * Tracking breaks: what people cannot do by changing their mind. Parameters
+ * changing shape, an event sent more or less often per person, a series or a
+ * step going silent. A day's calendar or people's behaviour never explains
+ * them.
+ */
+export function isTrackingBreak(finding: Finding): boolean {
+  return (
+    finding.check === 'schema' ||
+    finding.kind === 'silent' ||
+    finding.kind === 'absent_step' ||
+    finding.kind === 'absent_event' ||
+    finding.metric.includes('per_person')
+  );
+}
+
+/** What a tracking break is about across platforms: the same check, kind and subject. */
+const breakKey = (finding: Finding) => `${finding.check}|${finding.kind}|${finding.subject.name}|${finding.direction}`;
+
+/**
+ * A tracking break no version explains, seen on one platform only that day
+ * (no finding of the same kind about the same subject on another platform):
+ * the platform's tracking, not people, and not the calendar.
+ */
+function trackingBreak(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
+  const platform = finding.platform;
+  if (platform === null || !isTrackingBreak(finding)) return undefined;
+  const key = breakKey(finding);
+  const elsewhere = dayFindings.filter((f) => f.platform !== null && f.platform !== platform && isTrackingBreak(f) && breakKey(f) === key);
+  if (elsewhere.length > 0) return undefined;
+  const others = input.flow.platforms.filter((p) => p !== platform);
+  const versions = versionsOn(input, platform, input.day);
+  const versionNote = versions.length <= 1 ? `${platform} sends no app versions to tell apart` : 'no single app version explains it';
+  return {
+    groupKey: `platform|${platform}`,
+    cause: {
+      label: 'platform',
+      confidence: 0.8,
+      sentence: `only ${platform} shows it${others.length > 0 ? ` (${others.join(', ')} do not)` : ''}: a tracking change on ${platform}, ${versionNote}`,
+      platform,
+      version: null,
+      evidence: { finding: finding.kind, subject: finding.subject.name, versions: versions.length },
+    },
+  };
+}
+
+/**
+ * The platform a finding about every platform comes from: the only one whose
+ * measure moved at least `minZ` standard errors while every other moved at
+ * most `otherPlatformsShare` as much (relative change). Undefined when the
+ * platforms moved alike, or the finding has no measure to compare.
+ */
+function movedPlatform(finding: Finding, input: CheckInput): string | undefined {
+  const found = causeMeasureOf(finding, input.flow);
+  if (!found || input.flow.platforms.length < 2) return undefined;
+  const measure = acrossSlices(found);
+  const days = baselineDays(input);
+  const sign = finding.direction === 'up' ? 1 : finding.direction === 'down' ? -1 : 0;
+  const changes = input.flow.platforms.map((platform) => ({ platform, change: relativeChange(input, measure, all(platform), days) }));
+  const moved = changes.filter((c) => Number.isFinite(c.change) && (sign === 0 || Math.sign(c.change) === sign));
+  if (moved.length === 0) return undefined;
+  const lead = moved.reduce((a, b) => (Math.abs(b.change) > Math.abs(a.change) ? b : a));
+  const rest = changes.filter((c) => c.platform !== lead.platform && Number.isFinite(c.change));
+  if (rest.some((c) => Math.abs(c.change) > CAUSE_THRESHOLDS.otherPlatformsShare * Math.abs(lead.change))) return undefined;
+  return Math.abs(changeZ(input, measure, all(lead.platform), days)) >= CAUSE_THRESHOLDS.minZ ? lead.platform : undefined;
 }
 
 function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
@@ -220,22 +290,49 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   };
 }
 
-function release(finding: Finding, input: CheckInput): Attribution | undefined {
+/**
+ * The earlier version a schema break of `version` comes from: the same
+ * series (check family, event, key, platform) was judged anomalous for a
+ * version first seen before this one, on a day of the history or today. A
+ * later release that keeps a renamed key or a new value carries on the
+ * release that brought it. Undefined when no earlier version had it.
+ */
+function broughtBy(finding: Finding, platform: string, version: string, input: CheckInput, dayFindings: readonly Finding[]): string | undefined {
+  const prefix = finding.seriesKey.slice(0, finding.seriesKey.lastIndexOf(':') + 1);
+  const candidates = new Set<string>();
+  for (const [key, days] of Object.entries(input.anomalous)) if (key.startsWith(prefix) && days.length > 0) candidates.add(key.slice(prefix.length));
+  for (const f of dayFindings) if (f.check === 'schema' && f.version !== null && f.seriesKey.startsWith(prefix)) candidates.add(f.version);
+  candidates.delete(version);
+  candidates.delete(ALL_VERSIONS);
+  const own = firstSeen(input, platform, version);
+  let best: { version: string; seen: Day } | undefined;
+  for (const candidate of candidates) {
+    const seen = firstSeen(input, platform, candidate);
+    if (seen === undefined || own === undefined || seen >= own) continue;
+    if (!best || seen < best.seen) best = { version: candidate, seen };
+  }
+  return best?.version;
+}
+
+function release(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
   const platform = finding.platform;
   if (platform === null) return undefined;
   if (finding.check === 'schema' && finding.version !== null && finding.version !== ALL_VERSIONS) {
-    const seen = firstSeen(input, platform, finding.version);
-    const adoption = shareOfPlatform(input, platform, finding.version);
+    const earlier = broughtBy(finding, platform, finding.version, input, dayFindings);
+    const version = earlier ?? finding.version;
+    const seen = firstSeen(input, platform, version);
+    const adoption = shareOfPlatform(input, platform, version);
+    // The schema message names its version already: say it once.
+    const what = withoutPrefix(finding.message, `${platform} ${finding.version} `);
     return {
-      groupKey: `release|${platform}|${finding.version}`,
+      groupKey: `release|${platform}|${version}`,
       cause: {
         label: 'release',
         confidence: 0.9,
-        // The schema message names the version already: say it once.
-        sentence: `${platform} ${finding.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${withoutPrefix(finding.message, `${platform} ${finding.version} `)}`,
+        sentence: `${platform} ${version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${earlier ? `brought a change that ${finding.version} keeps: ${finding.message}` : what}`,
         platform,
-        version: finding.version,
-        evidence: { version: finding.version, firstSeen: seen ?? null, adoption, finding: finding.kind },
+        version,
+        evidence: { version, firstSeen: seen ?? null, adoption, finding: finding.kind, ...(earlier ? { keptBy: finding.version } : {}) },
       },
     };
   }
@@ -245,10 +342,11 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
   if (versions.length < 2) return undefined;
   const byVersion = new Map(versions.map((version) => [version, measureOn(input, measure, input.day, { platform, version, dimension: '', value: '' })]));
   const days = baselineDays(input);
-  const usual = rate(baselineOf(input, measure, all(platform), days));
+  const baseline = baselineOf(input, measure, all(platform), days);
+  const usual = rate(baseline);
   const today = rate(measureOn(input, measure, input.day, all(platform)));
   if (!Number.isFinite(usual) || !Number.isFinite(today) || today === usual) return undefined;
-  let best: { version: string; own: Ratio; rest: Ratio; pValue: number } | undefined;
+  let best: { version: string; own: Ratio; rest: Ratio; reference: Ratio; pValue: number } | undefined;
   for (const version of versions) {
     const own = byVersion.get(version)!;
     if (own.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
@@ -258,25 +356,32 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
         (acc, v) => ({ num: acc.num + byVersion.get(v)!.num, den: acc.den + byVersion.get(v)!.den, spread: (acc.spread ?? 0) + (byVersion.get(v)!.spread ?? 0) }),
         { num: 0, den: 0, spread: 0 } as Ratio,
       );
-    if (rest.den < CAUSE_THRESHOLDS.minVersionPeople) continue;
+    // Few people left on the other versions (a release most of the platform has taken): the version is compared
+    // with the platform's usual self over the baseline days instead.
+    const reference = rest.den >= CAUSE_THRESHOLDS.minVersionPeople ? rest : baseline;
+    if (!(reference.den > 0)) continue;
     // The version must sit on the side the platform moved to.
-    if (Math.sign(rate(own) - rate(rest)) !== Math.sign(today - usual)) continue;
-    const { pValue } = compare(measure, own, rest);
-    if (!best || pValue < best.pValue) best = { version, own, rest, pValue };
+    if (Math.sign(rate(own) - rate(reference)) !== Math.sign(today - usual)) continue;
+    const { pValue } = compare(measure, own, reference);
+    if (!best || pValue < best.pValue) best = { version, own, rest, reference, pValue };
   }
   if (!best || best.pValue > CAUSE_THRESHOLDS.releasePValue) return undefined;
-  // The other versions must look like the platform's usual self: the change lives in this version.
-  const restShare = (rate(best.rest) - usual) / (today - usual);
-  if (!(restShare <= CAUSE_THRESHOLDS.restShareOfChange)) return undefined;
+  // The other versions must look like the platform's usual self: they carry at most `restShareOfChange` of the
+  // platform's change, or they are within `minZ` standard errors of their usual level (a version with a tenth of
+  // the platform moves it a tenth as much as it moved, and the others' noise can be as large).
+  const restShare = best.rest.den > 0 ? (rate(best.rest) - usual) / (today - usual) : 0;
+  const restUsual = best.rest.den === 0 || restShare <= CAUSE_THRESHOLDS.restShareOfChange || Math.abs(compare(measure, best.rest, baseline).z) < CAUSE_THRESHOLDS.minZ;
+  if (!restUsual) return undefined;
   const seen = firstSeen(input, platform, best.version);
   const adoption = shareOfPlatform(input, platform, best.version);
   const ownRate = level(measure, best.own);
-  const what = releaseEffect(input, measure, best.own, best.rest);
+  const against = best.reference === best.rest ? 'on other versions' : `usually on ${platform}`;
+  const what = releaseEffect(input, measure, best.own, best.reference, against);
   return {
     groupKey: `release|${platform}|${best.version}`,
     cause: {
       label: 'release',
-      confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, restShare))),
+      confidence: Math.min(0.99, Math.max(0.5, 1 - Math.max(0, Number.isFinite(restShare) ? restShare : 0))),
       sentence: `${platform} ${best.version} (first seen ${seen ?? 'before the history'}, ${formatPercent(adoption)} of ${platform} people) ${what}`,
       platform,
       version: best.version,
@@ -288,7 +393,8 @@ function release(finding: Finding, input: CheckInput): Attribution | undefined {
         versionNum: best.own.num,
         versionDen: best.own.den,
         versionRate: ownRate,
-        restRate: level(measure, best.rest),
+        restRate: level(measure, best.reference),
+        restPeople: best.rest.den,
         platformUsual: measure.kind === 'step_seconds' ? Math.exp(usual) : usual,
         pValue: best.pValue,
       },
@@ -301,7 +407,7 @@ function withoutPrefix(text: string, prefix: string): string {
 }
 
 /** What the version did, in words and numbers, against the other versions of its platform. */
-function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ratio): string {
+function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ratio, against: string): string {
   const stopped = own.num === 0 && rest.num > 0;
   const restRate = formatRatio(measure, rate(rest));
   const steps = input.flow.steps.map((step) => step.name);
@@ -309,23 +415,23 @@ function releaseEffect(input: CheckInput, measure: Measure, own: Ratio, rest: Ra
     case 'step_conversion': {
       const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
       const counts = `${formatCount(own.num)} of ${formatCount(own.den)} people at ${from} reached ${to}`;
-      return stopped ? `stopped sending the ${to} step: ${counts}, against ${restRate} on other versions` : `${counts} (${formatRatio(measure, rate(own))}), against ${restRate} on other versions`;
+      return stopped ? `stopped sending the ${to} step: ${counts}, against ${restRate} ${against}` : `${counts} (${formatRatio(measure, rate(own))}), against ${restRate} ${against}`;
     }
     case 'step_people': {
       const step = steps[measure.step]!;
       const counts = `${formatCount(own.num)} people at ${step} for ${formatCount(own.den)} entering`;
-      return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+      return stopped ? `stopped sending the ${step} step: ${counts}, against ${restRate} per person entering ${against}` : `${counts}, against ${restRate} per person entering ${against}`;
     }
     case 'step_seconds': {
       const [from, to] = [steps[measure.step - 1]!, steps[measure.step]!];
-      return `takes a median ${formatNumber(level(measure, own))} s from ${from} to ${to} (${formatCount(own.den)} people timed), against ${formatNumber(level(measure, rest))} s on other versions`;
+      return `takes a median ${formatNumber(level(measure, own))} s from ${from} to ${to} (${formatCount(own.den)} people timed), against ${formatNumber(level(measure, rest))} s ${against}`;
     }
     case 'event_people': {
       const counts = `${formatCount(own.num)} people sending ${measure.event} for ${formatCount(own.den)} entering`;
-      return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering on other versions` : `${counts}, against ${restRate} per person entering on other versions`;
+      return stopped ? `stopped sending ${measure.event}: ${counts}, against ${restRate} per person entering ${against}` : `${counts}, against ${restRate} per person entering ${against}`;
     }
     default:
-      return `${measure.label} ${formatRatio(measure, rate(own))} (${formatCount(own.num)} over ${formatCount(own.den)}), against ${restRate} on other versions`;
+      return `${measure.label} ${formatRatio(measure, rate(own))} (${formatCount(own.num)} over ${formatCount(own.den)}), against ${restRate} ${against}`;
   }
 }
 
@@ -482,25 +588,24 @@ function namedSegment(finding: Finding, input: CheckInput): Attribution | undefi
   };
 }
 
-function announced(finding: Finding, input: CheckInput): boolean {
-  return input.calendar.some((entry) => entry.day === input.day && (entry.expect === 'low' ? finding.direction === 'down' : finding.direction === 'up'));
-}
-
+/**
+ * A declared day explains only what it announces: a move of people or
+ * conversion in the announced direction (fewer on a low day, more on a high
+ * one). Never a tracking break, and never a move the other way.
+ */
 function calendar(finding: Finding, input: CheckInput): Attribution | undefined {
-  const entry = input.calendar.find((c) => c.day === input.day);
-  if (!entry && !finding.calendar) return undefined;
-  const note = entry?.note ?? finding.calendar!;
-  const expected = entry?.expect;
-  const agrees = expected === undefined || (expected === 'low' ? finding.direction === 'down' : finding.direction === 'up');
+  if (isTrackingBreak(finding) || !causeMeasureOf(finding, input.flow)) return undefined;
+  const entry = input.calendar.find((c) => c.day === input.day && (c.expect === 'low' ? finding.direction === 'down' : finding.direction === 'up'));
+  if (!entry) return undefined;
   return {
-    groupKey: `calendar|${note}`,
+    groupKey: `calendar|${entry.note}`,
     cause: {
       label: 'calendar',
-      confidence: agrees ? 0.85 : 0.4,
-      sentence: `${input.day} is declared in the calendar: ${note}${expected ? ` (expected ${expected})` : ''}`,
+      confidence: 0.85,
+      sentence: `${input.day} is declared in the calendar: ${entry.note} (expected ${entry.expect})`,
       platform: null,
       version: null,
-      evidence: { note, expected: expected ?? null },
+      evidence: { note: entry.note, expected: entry.expect },
     },
   };
 }

@@ -79,6 +79,8 @@ function leads(a: Finding, b: Finding): boolean {
 
 /** What a data delay is about: the events themselves, whichever flow counts them. */
 const DATA_DELAY_SUBJECT = 'events';
+/** What a release's fingerprint is about: the version (which the fingerprint names), whatever it broke. */
+const RELEASE_SUBJECT = 'version';
 
 /** The incident drafts of one flow's judged day. */
 export function analyseCauses(input: CheckInput, findings: readonly Finding[]): IncidentDraft[] {
@@ -101,8 +103,10 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     const primary = ranked[0]!;
     const severity = loud.length > 0 ? primary.severity : symptoms.reduce<Severity>((low, f) => (SEVERITY_RANK[f.severity] < SEVERITY_RANK[low] ? f.severity : low), 'page');
     const platforms = [...new Set(symptoms.map((f) => f.platform))];
-    // One platform when every symptom is on it; a cause seen across platforms (a segment, the calendar) has none.
-    const platform = platforms.length === 1 ? platforms[0]! : null;
+    // A release or a platform cause is its platform's, whichever symptoms show it (an all-platforms finding the
+    // analysis placed there too); otherwise one platform when every symptom is on it, else none.
+    const located = cause.label === 'release' || cause.label === 'platform';
+    const platform = located ? cause.platform : platforms.length === 1 ? platforms[0]! : null;
     const dataDelay = cause.label === 'data_delay';
     // A segment is about the value across the flow: which of its series crossed a threshold on a day is chance.
     const subject = dataDelay ? DATA_DELAY_SUBJECT : cause.label === 'segment' ? input.flow.id : subjectOf(symptoms, input, platform);
@@ -111,11 +115,14 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     const segmentKey = cause.segment ? `|${cause.segment.dimension}=${cause.segment.value}` : '';
     // Which platforms' findings crossed their thresholds on a day is chance for a cause that spans platforms:
     // only a release or a platform cause names its platform in the fingerprint, so the incident stays one.
-    const fingerprintPlatform = cause.label === 'release' || cause.label === 'platform' ? (platform ?? '*') : '*';
+    const fingerprintPlatform = located ? (platform ?? '*') : '*';
     // Likewise which flows: a late or stopped pipeline holds back every flow at once, so a data delay names none.
     const fingerprintFlow = dataDelay ? '*' : input.flow.id;
+    // A release is about its version, not about the series that show it: the step that is no longer reached
+    // today and the renamed parameter tomorrow are one incident.
+    const fingerprintSubject = cause.label === 'release' ? RELEASE_SUBJECT : subject;
     drafts.push({
-      fingerprint: `${fingerprintFlow}|${cause.label}|${subject}|${fingerprintPlatform}|${version ?? '*'}${segmentKey}`,
+      fingerprint: `${fingerprintFlow}|${cause.label}|${fingerprintSubject}|${fingerprintPlatform}|${version ?? '*'}${segmentKey}`,
       flows: [input.flow.id],
       owners: [input.flow.owner],
       day: input.day,

@@ -26,7 +26,9 @@
  * days and the days the same series was already judged anomalous, so a break
  * stays reported while it lasts. New keys and values are changes, not levels:
  * they are news on the first day and known afterwards, so their test reads
- * every recent day, flagged or not.
+ * every recent day, flagged or not. Values of a key the platform has sent on
+ * fewer than seven of the recent days (one a release just renamed or added)
+ * are part of the key's arrival, not news of their own.
  *
  * Where (scope.ts `localise`): when some versions break a rule and the other
  * versions, pooled, are clean, each is a finding of its own (a release);
@@ -62,7 +64,7 @@ import { excerpt } from '../series.js';
 import type { CheckInput, CheckModule, Finding, Severity, WithPlatforms } from '../types.js';
 import { anomalousSince, calendarSeverity } from '../findings.js';
 import { buildProfiles } from './profile.js';
-import { contractDrafts, driftDrafts, dropEchoes, pairRenames, undeclaredDrafts, type Draft, type Kind } from './rules.js';
+import { contractDrafts, driftDrafts, dropEchoes, dropYoungKeyValues, pairRenames, undeclaredDrafts, type Draft, type Kind } from './rules.js';
 import { EventScope } from './scope.js';
 
 const EXCERPT_DAYS = 28;
@@ -138,7 +140,7 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
       ...(declared && o.unknown_params !== 'off' ? undeclaredDrafts(scope, contract) : []),
       ...driftDrafts(scope, { contract, stepKeys, stepValues, newKeys: !declared && o.unknown_params !== 'off', newValues: o.new_values !== 'off' }),
     ];
-    for (const draft of dropEchoes(pairRenames(scope, drafts))) findings.push(toFinding(scope, draft, o));
+    for (const draft of dropYoungKeyValues(scope, dropEchoes(pairRenames(scope, drafts)))) findings.push(toFinding(scope, draft, o));
   }
   return findings;
 }

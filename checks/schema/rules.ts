@@ -7,7 +7,7 @@
 import { twoProportionZ, wilson } from '../stats/index.js';
 import type { ParamContract } from '../types.js';
 import { SCALAR_TYPES, nullEvents, parseValueId, scalarEvents, valueCounts, type VersionDay } from './profile.js';
-import type { EventScope, Family, Measure, Verdict } from './scope.js';
+import { MIN_REFERENCE_DAYS, type EventScope, type Family, type Measure, type Verdict } from './scope.js';
 
 export type Kind =
   | 'missing_required'
@@ -488,6 +488,27 @@ export function pairRenames(scope: EventScope, drafts: Draft[]): Draft[] {
 export function dropEchoes(drafts: Draft[]): Draft[] {
   const explained = new Set(drafts.filter((d) => d.family !== 'values' || d.kind === 'outside_enum').map((d) => `${d.key}\u0000${d.version}`));
   return drafts.filter((d) => !((d.kind === 'vanished_value' || d.kind === 'new_value') && explained.has(`${d.key}\u0000${d.version}`)));
+}
+
+/**
+ * Values are news only for a key the platform has sent for a while: a key
+ * seen on fewer than MIN_REFERENCE_DAYS of the recent days (a key a release
+ * just renamed or added) is still showing its values, and a new or vanished
+ * one is part of the key's arrival, already reported.
+ */
+export function dropYoungKeyValues(scope: EventScope, drafts: Draft[]): Draft[] {
+  const young = new Map<string, boolean>();
+  const isYoung = (key: string) => {
+    if (!young.has(key)) {
+      const days = scope.past.filter((day) => {
+        const cell = scope.pool(day, () => true, presence(key));
+        return cell.x > 0 && wilson(Math.min(cell.x, cell.n), cell.n).low > scope.options.tolerance;
+      }).length;
+      young.set(key, days < MIN_REFERENCE_DAYS);
+    }
+    return young.get(key)!;
+  };
+  return drafts.filter((d) => !((d.kind === 'new_value' || d.kind === 'vanished_value') && isYoung(d.key)));
 }
 
 /** Up to SHOWN_VALUES values, each cut to VALUE_LENGTH characters, and how many more. */

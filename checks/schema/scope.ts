@@ -227,9 +227,12 @@ export class EventScope {
    * versions (a release: "ios 5.2.0"). That last test has no floor: the
    * remaining versions may be small on a weekend, and their statistics (a
    * Wilson bound, a z-test) already widen with fewer events. Otherwise the
-   * versions not already explained are judged pooled, and a flag there is a
-   * platform finding (version null): every version changed at once, or the
-   * affected versions are too small to judge alone.
+   * versions not already explained are judged pooled. A flag there belongs to
+   * the versions below the floor that break the rule alone when the pool of
+   * the others is clean (`breakSources`: a release on its first days, and the
+   * later releases that kept its change), named by the first of them to
+   * appear; otherwise it is a platform finding (version null): every version
+   * changed at once.
    *
    * `judge(versions, floor)` returns null when the versions cannot be judged.
    */
@@ -252,8 +255,37 @@ export class EventScope {
     const residual = this.versions.filter((version) => !specific.includes(version));
     if (residual.length > 0) {
       const verdict = judged(residual);
-      if (verdict?.flagged) out.push({ version: null, versions: residual, verdict });
+      const sources = verdict?.flagged ? breakSources(residual, judged) : [];
+      if (sources.length > 0) out.push({ version: this.firstSent(sources), versions: sources, verdict: judged(sources, false) ?? verdict! });
+      else if (verdict?.flagged) out.push({ version: null, versions: residual, verdict });
     }
     return out;
   }
+
+  /** The version among `versions` that sent the event first in the history (a release before the ones that kept its change). */
+  private firstSent(versions: readonly string[]): string {
+    for (const day of this.input.days) {
+      const sent = versions.filter((version) => this.profile.days.get(day)?.has(version));
+      if (sent.length > 0) return sent.sort()[0]!;
+    }
+    return [...versions].sort()[0]!;
+  }
+}
+
+/**
+ * The versions a pooled flag comes from, however few their events: each
+ * breaks the rule judged alone without the floor, and the pool of the other
+ * versions is clean. A release on its first days (a few percent of the
+ * platform) carries the whole symptom: the symptom's share of the platform is
+ * the version's share, not a change of every version. Empty when no version
+ * fits, or every version does (the platform changed).
+ */
+function breakSources(versions: readonly string[], judged: (versions: readonly string[], floor?: boolean) => Verdict | null): string[] {
+  const sources = versions.filter((version) => judged([version], false)?.flagged === true);
+  if (sources.length === 0 || sources.length === versions.length) return [];
+  const rest = judged(
+    versions.filter((version) => !sources.includes(version)),
+    false,
+  );
+  return rest !== null && !rest.flagged ? sources : [];
 }

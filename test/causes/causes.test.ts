@@ -30,7 +30,7 @@ describe('analyseCauses', () => {
     expect(draft.cause.evidence).toMatchObject({ version: '7.4.0', versionNum: 0, versionDen: 800, restRate: 0.8, adoption: 0.4 });
     expect(draft.cause.sentence).toMatch(/^android 7\.4\.0 \(first seen 2026-09-16, 40\.0% of android people\) stopped sending/);
     expect(draft.cause.sentence).toContain('stopped sending the rider step: 0 of 800 people at intro reached rider, against 80.0% on other versions');
-    expect(draft.fingerprint).toBe('monthly_pass|release|rider|android|7.4.0');
+    expect(draft.fingerprint).toBe('monthly_pass|release|version|android|7.4.0');
   });
 
   it('does not blame a version when every version moved alike: one platform', () => {
@@ -200,5 +200,134 @@ describe('analyseCauses', () => {
     // The same step time on every version of the platform is no release.
     const everywhere = buildInput({ times: ({ platform, day }) => (platform === 'android' && day === DAY ? { median: 48, p90: 120 } : { median: 16, p90: 40 }) });
     expect(onlyDraft(analyseCauses(everywhere, [slower])).cause.label).not.toBe('release');
+  });
+
+  // Issue 13: one root cause, one incident with the right cause.
+  describe('one incident per root cause', () => {
+    const brokenRelease = ({ platform, version }: { platform: string; version: string }) => (platform === 'android' && version === '7.4.0' ? { rider: 0 } : {});
+    const renamed = finding({
+      check: 'schema',
+      kind: 'renamed',
+      metric: 'presence',
+      subject: { type: 'param', name: 'screen_shown.view', event: 'screen_shown', param: 'view' },
+      platform: 'android',
+      version: '7.4.0',
+      message: 'android 7.4.0 sends `screen` instead of `view` in screen_shown',
+    });
+
+    it('makes every symptom of one release one incident, whichever series shows it on a day', () => {
+      const input = buildInput({ breakage: brokenRelease });
+      // Day one shows the rename, day two the step it no longer reaches: one fingerprint.
+      const rename = onlyDraft(analyseCauses(input, [renamed]));
+      const step = onlyDraft(analyseCauses(input, [riderConversion('android')]));
+      expect(rename.cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      expect(step.cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      expect(step.fingerprint).toBe(rename.fingerprint);
+      expect(onlyDraft(analyseCauses(input, [renamed, riderConversion('android')])).symptoms).toHaveLength(2);
+    });
+
+    it('keeps a later release that carries a renamed key on the release that brought it', () => {
+      // 7.3.0 renamed `view` (its series was judged anomalous); 7.4.0, first seen later, keeps the new key.
+      const base = buildInput();
+      const input = {
+        ...base,
+        events: base.events.filter((r) => !(r.version === '7.4.0' && r.day < '2026-10-10')),
+        anomalous: { 'schema:presence:screen_shown.view:android:7.3.0': ['2026-10-01', '2026-10-02'] },
+      };
+      const kept = { ...renamed, seriesKey: 'schema:presence:screen_shown.view:android:7.4.0' };
+      const draft = onlyDraft(analyseCauses(input, [kept]));
+      expect(draft.cause).toMatchObject({ label: 'release', version: '7.3.0', evidence: { keptBy: '7.4.0' } });
+      expect(draft.fingerprint).toBe('monthly_pass|release|version|android|7.3.0');
+      // With no earlier version showing it, 7.4.0 is the release.
+      expect(onlyDraft(analyseCauses({ ...input, anomalous: {} }, [kept])).cause.version).toBe('7.4.0');
+    });
+
+    it('names a release at low adoption: the other versions moved by no more than their noise', () => {
+      // 7.4.0 has 5% of android (100 people) and stopped sending rider; the other versions are 3% down, a
+      // 2.6-sigma wobble of 1,900 people that is 38% of the platform's move.
+      const versions = { android: [{ version: '7.3.0', share: 0.95 }, { version: '7.4.0', share: 0.05 }] };
+      const input = buildInput({ versions, breakage: ({ platform, version }) => (platform !== 'android' ? {} : version === '7.4.0' ? { rider: 0 } : { rider: 0.97 }) });
+      expect(onlyDraft(analyseCauses(input, [riderConversion('android')])).cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      // The other versions down 10% (an 8.6-sigma move) is the platform's own.
+      const both = buildInput({ versions, breakage: ({ platform, version }) => (platform !== 'android' ? {} : version === '7.4.0' ? { rider: 0 } : { rider: 0.9 }) });
+      expect(onlyDraft(analyseCauses(both, [riderConversion('android')])).cause.label).not.toBe('release');
+    });
+
+    it('names a release most of the platform has taken, with too few people left on the others to compare', () => {
+      const versions = { android: [{ version: '7.3.0', share: 0.01 }, { version: '7.4.0', share: 0.99 }] };
+      const input = buildInput({ versions, breakage: brokenRelease });
+      const draft = onlyDraft(analyseCauses(input, [riderConversion('android')]));
+      expect(draft.cause).toMatchObject({ label: 'release', version: '7.4.0' });
+      expect(draft.cause.sentence).toContain('against 80.0% usually on android');
+    });
+
+    it('places an all-platforms end-to-end finding on the platform and version that moved before labelling it', () => {
+      // android 7.4.0 (40% of android) stopped sending rider: the flow's completion over every platform fell,
+      // android's by 40%, web's and ios's not at all.
+      const input = buildInput({ breakage: brokenRelease });
+      const endToEnd = finding({ check: 'seasonal', metric: 'conversion', subject: { type: 'flow', name: 'monthly_pass' }, platform: null });
+      const draft = onlyDraft(analyseCauses(input, [riderConversion('android'), endToEnd]));
+      expect(draft.cause).toMatchObject({ label: 'release', platform: 'android', version: '7.4.0' });
+      expect(draft.platform).toBe('android');
+      expect(draft.symptoms).toHaveLength(2);
+      // Only web's rider step half broken, every version alike: the all-platforms finding is web's.
+      const web = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { rider: 0.5 } : {}) });
+      const webDraft = onlyDraft(analyseCauses(web, [endToEnd]));
+      expect(webDraft.cause).toMatchObject({ label: 'platform', platform: 'web' });
+      expect(webDraft.fingerprint).toBe('monthly_pass|platform|rider|web|*');
+      // Every platform alike stays an all-platforms behaviour.
+      const everywhere = buildInput({ breakage: () => ({ rider: 0.5 }) });
+      expect(onlyDraft(analyseCauses(everywhere, [endToEnd])).cause).toMatchObject({ label: 'behaviour', platform: null });
+    });
+
+    const webType = finding({
+      check: 'schema',
+      kind: 'type_shift',
+      metric: 'type_share',
+      subject: { type: 'param', name: 'pass_purchase_result.amount', event: 'pass_purchase_result', param: 'amount' },
+      platform: 'web',
+      direction: 'up',
+      severity: 'warn',
+      message: 'web sends `amount` of pass_purchase_result as another type than number (mostly string) in 100.0% of 1,100 events, usually 0.0%',
+    });
+    const webValue = finding({
+      check: 'schema',
+      kind: 'new_value',
+      metric: 'value_share',
+      subject: { type: 'param', name: 'pass_purchase_result.method', event: 'pass_purchase_result', param: 'method' },
+      platform: 'web',
+      direction: 'up',
+      severity: 'note',
+      message: 'web sends new values of `method` with pass_purchase_result: voucher in 20.0% of 1,100 events',
+    });
+
+    it.each([
+      ['a parameter type change', webType],
+      ['a new enum value', webValue],
+      ['events per person doubling', finding({ check: 'volume', kind: 'events_per_person', metric: 'events_per_person', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform: 'web', direction: 'up' })],
+    ])('labels %s on a platform without app versions, seen there alone, platform (never behaviour)', (_name, seen) => {
+      const draft = onlyDraft(analyseCauses(buildInput(), [seen]));
+      expect(draft.cause).toMatchObject({ label: 'platform', platform: 'web', version: null });
+      expect(draft.cause.sentence).toContain('web sends no app versions');
+      // The same break on two platforms is no platform's.
+      const ios = { ...seen, platform: 'ios', seriesKey: `${seen.seriesKey}:ios` };
+      expect(analyseCauses(buildInput(), [seen, ios]).map((d) => d.cause.label)).not.toContain('platform');
+    });
+
+    it('lets a declared day explain only the moves it announced, never a tracking break', () => {
+      const holiday = [{ day: DAY, note: 'Founders Day', expect: 'low' as const }];
+      const input = buildInput({ breakage: () => ({ volume: 0.55 }), calendar: holiday });
+      // The type change began days before the holiday: still the platform's, on the holiday too.
+      const typed = onlyDraft(analyseCauses(input, [{ ...webType, calendar: 'Founders Day', since: '2026-10-15' }]));
+      expect(typed.cause.label).toBe('platform');
+      expect(typed.fingerprint).toBe(onlyDraft(analyseCauses(buildInput(), [webType])).fingerprint);
+      // A rise on a declared low day is not what was announced.
+      const rise = finding({ check: 'volume', kind: 'rise', metric: 'people', subject: { type: 'event', name: 'pass_purchase_result', event: 'pass_purchase_result' }, platform: 'web', direction: 'up', calendar: 'Founders Day' });
+      const risen = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { done: 1.25 } : {}), calendar: holiday });
+      expect(onlyDraft(analyseCauses(risen, [rise])).cause.label).not.toBe('calendar');
+      // The drop it announced is the calendar's.
+      const drop = finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform: 'web', calendar: 'Founders Day', severity: 'note' });
+      expect(onlyDraft(analyseCauses(input, [drop])).cause.label).toBe('calendar');
+    });
   });
 });

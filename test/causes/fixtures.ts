@@ -48,7 +48,10 @@ export type Level = (slice: { platform: string; country: string; day: string }) 
 /** Median and 90th percentile of the intro -> rider time of a slice on a day, in seconds; no times when not given. */
 export type Times = (slice: { platform: string; version: string; day: string }) => { median: number; p90: number };
 
-export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput['calendar']; history?: number; level?: Level; times?: Times } = {}): CheckInput {
+export function buildInput(
+  options: { breakage?: Breakage; calendar?: CheckInput['calendar']; history?: number; level?: Level; times?: Times; versions?: Partial<typeof VERSIONS> } = {},
+): CheckInput {
+  const versions = { ...VERSIONS, ...options.versions };
   const history = options.history ?? 35;
   const days = Array.from({ length: history }, (_, i) => addDays(DAY, i - history + 1));
   const funnel: FunnelDayRow[] = [];
@@ -59,7 +62,7 @@ export function buildInput(options: { breakage?: Breakage; calendar?: CheckInput
       const totals = { intro: 0, rider: 0, done: 0 };
       const timed: Array<{ median: number; p90: number; people: number }> = [];
       const byCountry = new Map<string, { intro: number; rider: number; done: number }>();
-      for (const { version, share } of VERSIONS[platform]!) {
+      for (const { version, share } of versions[platform]!) {
         const versionTotals = { intro: 0, rider: 0, done: 0 };
         for (const country of COUNTRIES) {
           const broken = day === DAY && options.breakage ? options.breakage({ platform, version, country: country.value, day }) : {};

@@ -55,7 +55,8 @@ export function checkInput(flow: FlowDefinition, days: Day[], rows: Partial<Pick
     params: rows.params ?? [],
     funnel: rows.funnel ?? [],
     steps: rows.steps ?? [],
-    status: [],
+    // Every platform sent events on the judged day: a day without any is held back before the checks (judgeDay).
+    status: flow.platforms.map((platform) => ({ day, platform, events: 1000, newestAt: null, hourly: [], rolledUpAt: `${addDays(day, 1)}T06:30:00.000Z`, previousEvents: null })),
     calendar: rows.calendar ?? [],
     anomalous: rows.anomalous ?? {},
     now: `${addDays(day, 1)}T07:00:00.000Z`,

@@ -95,6 +95,23 @@ describe('schema: contract and renames', () => {
     expect(summary(run(input, { min_events: 20 }))).toEqual(['missing_required ios 5.0.2 zone_selected.fare_zone warn']);
   });
 
+  // Issue 13: on its first day a release had 21 of 216 events, under the floor, and its rename was the platform's.
+  it('names a release below the floor when the platform\'s break is all in it: the symptom\'s share is the version\'s', () => {
+    const input = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 38, keys: zoneKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    const findings = run(input);
+    expect(summary(findings), explain(input)).toEqual(['renamed ios 5.2.0 zone_selected.fare_zone warn']);
+    expect(findings[0]!.message).toBe('ios 5.2.0 sends `zone` instead of `fare_zone` in zone_selected: `zone` in 21 of 21 events, `fare_zone` in 0');
+    // Carried by two small versions (a release and a later one that kept the change), it is named by the one that
+    // appeared first (5.0.2 is in the history, 5.2.0 is new today).
+    const two = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: zoneKeys() }, '5.0.2': { total: 21, keys: renamedKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    const pooled = run(two);
+    expect(summary(pooled), explain(two)).toEqual(['renamed ios 5.0.2 zone_selected.fare_zone warn']);
+    expect(pooled[0]!.evidence!.versions).toBe('5.0.2, 5.2.0');
+    // In every version at once, it is the platform's.
+    const every = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 560, keys: renamedKeys() }, '5.2.0': { total: 21, keys: renamedKeys() } }));
+    expect(summary(run(every)), explain(every)).toEqual(['renamed ios null zone_selected.fare_zone warn']);
+  });
+
   it('reports a change in every version at once as one platform finding (version null)', () => {
     const broken = zoneKeys({ fare_zone: { share: 0.5, values: { A: 0.45, AB: 0.4, ABC: 0.15 } } });
     const input = checkInput(passFlow(), DAYS, iosZone({ '5.1.0': { total: 600, keys: broken }, '5.0.2': { total: 60, keys: broken } }));
@@ -177,6 +194,20 @@ describe('schema: drift against recent days', () => {
     // A stray event carrying the key yesterday does not make it known.
     const stray = checkInput(passFlow(), nextDays, profileHistory(nextDays, 'screen_shown', 'web', { '': (_d, i) => ({ total: 3000, keys: i === LAST ? referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) : i === LAST - 1 ? referrerKeys({ session_tag: { share: 0.0004, values: { x: 1 } } }) : referrerKeys() }) }));
     expect(summary(run(stray)), explain(stray)).toEqual(['new_key web null screen_shown.session_tag note']);
+  });
+
+  // Issue 13: the values of a key a release had just renamed came back as "new values" notes on the next days.
+  it('leaves the values of a key seen for only a few days to its arrival: not news yet', () => {
+    const { view } = referrerKeys();
+    const source = (values: Record<string, number>) => ({ view: view!, source: { share: 0.3, values } });
+    // `referrer` became `source` three days before the judged day, which brings a value `source` had not shown.
+    const young = (i: number) => (i >= LAST - 3 ? source({ home: 0.5, menu: 0.3, notification: 0.2 }) : referrerKeys());
+    const input = checkInput(passFlow(), DAYS, webViews(source({ home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 }), young));
+    expect(run(input).filter((f) => f.subject.name === 'screen_shown.source'), explain(input)).toEqual([]);
+    // Sent for three weeks, the key's new value is news.
+    const settled = (i: number) => (i >= LAST - 21 ? source({ home: 0.5, menu: 0.3, notification: 0.2 }) : referrerKeys());
+    const later = checkInput(passFlow(), DAYS, webViews(source({ home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 }), settled));
+    expect(summary(run(later).filter((f) => f.subject.name === 'screen_shown.source')), explain(later)).toEqual(['new_value web null screen_shown.source note']);
   });
 
   it('reports new values of a low-cardinality key without an enum (an enum turns them into contract breaks)', () => {
