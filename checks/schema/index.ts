@@ -26,7 +26,11 @@
  * days and the days the same series was already judged anomalous, so a break
  * stays reported while it lasts. New keys and values are changes, not levels:
  * they are news on the first day and known afterwards, so their test reads
- * every recent day, flagged or not.
+ * every recent day, flagged or not. The first sight of an event on a
+ * platform is its baseline: its keys and values are not news.
+ *
+ * Learning: while the flow is learning (`judging.learning_days`), only the
+ * declared contract is judged; drift waits for its history.
  *
  * Where (scope.ts `localise`): when some versions break a rule and the other
  * versions, pooled, are clean, each is a finding of its own (a release);
@@ -136,7 +140,10 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
     const drafts = [
       ...(declared ? contractDrafts(scope, contract) : []),
       ...(declared && o.unknown_params !== 'off' ? undeclaredDrafts(scope, contract) : []),
-      ...driftDrafts(scope, { contract, stepKeys, stepValues, newKeys: !declared && o.unknown_params !== 'off', newValues: o.new_values !== 'off' }),
+      // Drift compares with the past: while the flow is learning, its first days are that past.
+      ...(input.learning
+        ? []
+        : driftDrafts(scope, { contract, stepKeys, stepValues, newKeys: !declared && o.unknown_params !== 'off', newValues: o.new_values !== 'off' })),
     ];
     for (const draft of dropEchoes(pairRenames(scope, drafts))) findings.push(toFinding(scope, draft, o));
   }

@@ -97,6 +97,7 @@ export function sliceInput(
   now: string,
   timezone: string,
   hideValues = false,
+  learningDays = 0,
 ): CheckInput {
   const days = windowDays(day, historyDays, history.dataDays, history.from);
   const from = days[0]!;
@@ -107,11 +108,15 @@ export function sliceInput(
     const slice = rows.slice(firstAtOrAfter(rows, from), firstAtOrAfter(rows, addDays(day, 1)));
     return skipped ? slice.filter((row) => inWindow.has(row.day)) : slice;
   };
+  const events = within(history.events);
+  // The window must be able to hold what is to be learnt.
+  const needed = Math.min(learningDays, historyDays - 1);
+  const learnt = new Set(events.filter((row) => row.day < day && row.events > 0).map((row) => row.day)).size;
   return {
     flow: history.flow,
     day,
     days,
-    events: within(history.events),
+    events,
     params: within(history.params),
     funnel: within(history.funnel),
     steps: within(history.steps),
@@ -121,6 +126,7 @@ export function sliceInput(
     now,
     timezone,
     hideValues,
+    ...(learnt < needed ? { learning: { days: learnt, needed } } : {}),
   };
 }
 

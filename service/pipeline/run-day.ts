@@ -142,7 +142,7 @@ export async function judgeDays(
   for (const day of days) {
     const judge = async (): Promise<FlowJudgement[]> => {
       const judged = flows.map(({ flow, config, history, anomalous }) => {
-        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values);
+        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values, rt.config.main.judging.learning_days);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
         return { flow: flow.id, day, ...result, incidents: analyseCauses(input, result.findings) };
