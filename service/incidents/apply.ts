@@ -63,6 +63,9 @@ const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
  * measures the wait between messages (`incidents.repeat_after`). With
  * `quiet` (a backfill's days older than the catch-up window) incidents change
  * as usual but no message is queued: history is not news.
+ * With `lateRows` (the day is judged again because late rows restated it),
+ * incidents the day's first judgement opened that the complete data no longer
+ * shows close as late data (see closeAsLateData).
  */
 export async function applyIncidentDrafts(
   client: pg.ClientBase,
@@ -72,7 +75,7 @@ export async function applyIncidentDrafts(
   drafts: readonly IncidentDraft[],
   policy: IncidentPolicy,
   now: Date,
-  options: { quiet?: boolean } = {},
+  options: { quiet?: boolean; lateRows?: boolean } = {},
 ): Promise<IncidentChanges> {
   for (const draft of drafts) {
     const stranger = draft.flows.find((flow) => !flows.includes(flow));
@@ -141,7 +144,8 @@ export async function applyIncidentDrafts(
     seen.add(id);
   }
   await refreshFromSightings(client, s, [...touched], now);
-  const resolved = await settle(client, schema, flows, day, [...touched], policy, now);
+  const late = options.lateRows ? await closeAsLateData(client, s, day, [...touched].filter((id) => !seen.has(id)), now) : [];
+  const resolved = [...(await loadIncidents(client, schema, late)), ...(await settle(client, schema, flows, day, [...touched], policy, now))];
   changes.resolved = resolved.map((incident) => incident.id);
   if (options.quiet) return changes;
   changes.queued += await announceResolved(client, schema, resolved, policy, now);
@@ -168,12 +172,29 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
         severity = coalesce(($3::text[])[agg.rank], i.severity),
         title = coalesce(latest.title, i.title),
         muted = coalesce(latest.muted, i.muted),
-        cause_label = coalesce(latest.label, i.cause_label),
+        cause_label = case when i.resolution = 'late_data' then i.cause_label else coalesce(latest.label, i.cause_label) end,
         updated_at = $2
       from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id
       where i.id = t.id`,
     values: [ids, now, SEVERITIES],
   });
+}
+
+/**
+ * Late rows restated `day` and it was judged again: of the incidents its
+ * first judgement opened, those the complete data no longer shows (`gone`,
+ * not seen on the day any more) were missing data, not a change. They close
+ * as late data, labelled data delay, and keep their other days' sightings;
+ * an announced one gets one resolution message saying so. Returns their ids.
+ */
+async function closeAsLateData(client: pg.ClientBase, s: string, day: Day, gone: string[], now: Date): Promise<string[]> {
+  if (gone.length === 0) return [];
+  const { rows } = await client.query<{ id: string }>({
+    text: `update ${s}.incidents set status = 'resolved', resolution = 'late_data', resolved_day = $2, resolved_at = $3, cause_label = 'data_delay', updated_at = $3
+      where id = any($1) and opened_day = $2 and resolution is distinct from 'late_data' returning id`,
+    values: [gone, day, now],
+  });
+  return rows.map((row) => row.id);
 }
 
 interface SettleRow {
@@ -200,7 +221,7 @@ async function settle(client: pg.ClientBase, schema: string, flows: readonly str
           where j.flow = any(i.flows) and j.day > i.last_seen_day
           group by j.day having bool_and(j.verdict = 'judged') order by j.day offset $3 limit 1) as "cleanDay"
       from ${s}.incidents i
-      where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4))
+      where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4)) and i.resolution is distinct from 'late_data'
       order by i.id for update of i`,
     values: [flows, day, policy.resolveAfterDays - 1, touched],
   });
