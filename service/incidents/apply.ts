@@ -99,7 +99,8 @@ export async function applyIncidentDrafts(
         order by opened_day desc limit 1 for update`,
       values: [draft.fingerprint, day],
     });
-    let id = rows[0]?.id;
+    const episode = rows[0] ?? (await recentOnSameSubject(client, s, draft, day));
+    let id = episode?.id;
     if (id === undefined) {
       id = incidentId(draft.flows[0]!, draft.fingerprint, day);
       await client.query({
@@ -126,7 +127,7 @@ export async function applyIncidentDrafts(
         ],
       });
     }
-    ((rows[0]?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    ((episode?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
     await client.query({
       text: `insert into ${s}.incident_days (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
         values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
@@ -153,6 +154,30 @@ export async function applyIncidentDrafts(
   return changes;
 }
 
+/** Days within which a finding on the subject of a recent incident joins it instead of opening another (common practice: "a few days"). */
+export const JOIN_DAYS = 3;
+
+/**
+ * Hysteresis: an incident of the draft's flow about the same subject, on the
+ * same platform and version (or on all of them), seen within JOIN_DAYS days
+ * (resolved since by clean days, or not): the draft joins it, whatever cause
+ * it was given. A shift that hovers around a threshold, or whose label wavers
+ * between two tests, stays one incident. Data delays and calendar notes have
+ * their own fingerprints across subjects and never join.
+ */
+async function recentOnSameSubject(client: pg.ClientBase, s: string, draft: IncidentDraft, day: Day): Promise<{ id: string; openedDay: Day } | undefined> {
+  if (draft.cause.label === 'data_delay' || draft.cause.label === 'calendar') return undefined;
+  const { rows } = await client.query<{ id: string; openedDay: Day }>({
+    text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents
+      where flow = $1 and subject = $2 and opened_day <= $3 and last_seen_day >= $3::date - $4::int
+        and (platform is null or $5::text is null or platform = $5) and (version is null or $6::text is null or version = $6)
+        and cause_label not in ('data_delay', 'calendar') and (resolution is null or resolution = 'clean_days')
+      order by last_seen_day desc, opened_day, id limit 1 for update`,
+    values: [draft.flows[0], draft.subject, day, JOIN_DAYS, draft.platform, draft.version],
+  });
+  return rows[0];
+}
+
 /** Recomputes an incident's days, latest details and highest severity from its sightings. */
 async function refreshFromSightings(client: pg.ClientBase, s: string, ids: string[], now: Date): Promise<void> {
   if (ids.length === 0) return;
@@ -163,8 +188,12 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
           max(case d.severity when 'page' then 3 when 'warn' then 2 else 1 end) as rank
         from ${s}.incident_days d join t on t.id = d.incident_id group by d.incident_id),
       latest as (
-        select distinct on (d.incident_id) d.incident_id, d.title, d.muted, d.cause->>'label' as label
-        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, d.day desc)
+        select distinct on (d.incident_id) d.incident_id, d.title, d.muted
+        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, d.day desc),
+      -- The label does not flip without new evidence: the strongest cause seen wins, the earliest on a tie.
+      strongest as (
+        select distinct on (d.incident_id) d.incident_id, d.cause->>'label' as label
+        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, (d.cause->>'confidence')::float8 desc, d.day)
       update ${s}.incidents i set
         days_seen = coalesce(agg.n, 0),
         last_seen_day = coalesce(agg.last_day, i.last_seen_day),
@@ -172,9 +201,9 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
         severity = coalesce(($3::text[])[agg.rank], i.severity),
         title = coalesce(latest.title, i.title),
         muted = coalesce(latest.muted, i.muted),
-        cause_label = case when i.resolution = 'late_data' then i.cause_label else coalesce(latest.label, i.cause_label) end,
+        cause_label = case when i.resolution = 'late_data' then i.cause_label else coalesce(strongest.label, i.cause_label) end,
         updated_at = $2
-      from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id
+      from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id left join strongest on strongest.incident_id = t.id
       where i.id = t.id`,
     values: [ids, now, SEVERITIES],
   });

@@ -203,6 +203,31 @@ describe('applyIncidentDrafts', () => {
     expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([['opened', '2026-11-19']]);
   });
 
+  it('keeps a shift that hovers around its thresholds one incident, whose label changes only on stronger evidence', async () => {
+    // android lost a quarter of its people at the intro step: findings come and go, labelled behaviour one day, segment the next.
+    const shift = (d: string, label: 'behaviour' | 'segment' | 'platform', confidence: number) => {
+      const base = draft({ day: d, subject: 'intro', version: '', fingerprint: `${FLOW}|${label}|intro|${label === 'platform' ? 'android' : '*'}|*` });
+      return { ...base, version: null, cause: { ...base.cause, label, confidence, version: null } };
+    };
+    await day('2026-11-18', [shift('2026-11-18', 'behaviour', 0.6)]);
+    await day('2026-11-19', [shift('2026-11-19', 'segment', 0.5)]);
+    await day('2026-11-20', []);
+    await day('2026-11-21', []);
+    // Resolved after two clean days; seen again within JOIN_DAYS of its last sighting: the same incident, still behaviour.
+    expect((await incidents())[0]).toMatchObject({ status: 'resolved', causeLabel: 'behaviour' });
+    await day('2026-11-22', [shift('2026-11-22', 'segment', 0.55)]);
+    expect(await incidents()).toHaveLength(1);
+    expect((await incidents())[0]).toMatchObject({ status: 'ongoing', causeLabel: 'behaviour', daysSeen: 3, resolvedDay: null });
+    // Stronger evidence does change it.
+    await day('2026-11-23', [shift('2026-11-23', 'platform', 0.9)]);
+    const list = await incidents();
+    expect(list).toHaveLength(1);
+    expect(list[0]).toMatchObject({ causeLabel: 'platform', daysSeen: 4, openedDay: '2026-11-18' });
+    // Another subject is another incident.
+    await day('2026-11-24', [draft({ day: '2026-11-24', subject: 'done' })]);
+    expect(await incidents()).toHaveLength(2);
+  });
+
   it('opens a new incident when a resolved fingerprint comes back', async () => {
     await day('2026-11-18', [draft({ day: '2026-11-18' })]);
     await day('2026-11-19', []);
