@@ -127,11 +127,18 @@ export async function applyIncidentDrafts(
         ],
       });
     }
-    ((episode?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    if (!seen.has(id)) ((episode?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    // Two drafts of the day that join one incident are one sighting: the first keeps its title and cause, symptoms add up.
     await client.query({
-      text: `insert into ${s}.incident_days (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
-        values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
-      values: [id, draft.flows, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms)],
+      text: `insert into ${s}.incident_days as d (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
+        values ($1, $2, $3, $4, $5, $6, $7, $8, $9)
+        on conflict (incident_id, day) do update set
+          flows = d.flows || array(select f from unnest(excluded.flows) as f where f <> all(d.flows)),
+          since = least(d.since, excluded.since),
+          severity = case when array_position($10::text[], excluded.severity) > array_position($10::text[], d.severity) then excluded.severity else d.severity end,
+          muted = d.muted and excluded.muted,
+          symptoms = d.symptoms || excluded.symptoms`,
+      values: [id, draft.flows, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms), SEVERITIES],
     });
     // A flow that sees the incident later joins the flows it holds back, its owner the owners.
     await client.query({

@@ -205,8 +205,8 @@ describe('applyIncidentDrafts', () => {
 
   it('keeps a shift that hovers around its thresholds one incident, whose label changes only on stronger evidence', async () => {
     // android lost a quarter of its people at the intro step: findings come and go, labelled behaviour one day, segment the next.
-    const shift = (d: string, label: 'behaviour' | 'segment' | 'platform', confidence: number) => {
-      const base = draft({ day: d, subject: 'intro', version: '', fingerprint: `${FLOW}|${label}|intro|${label === 'platform' ? 'android' : '*'}|*` });
+    const shift = (d: string, label: 'behaviour' | 'segment' | 'platform', confidence: number, event = 'screen_shown') => {
+      const base = draft({ day: d, subject: 'intro', event, version: '', fingerprint: `${FLOW}|${label}|intro|${label === 'platform' ? 'android' : '*'}|*` });
       return { ...base, version: null, cause: { ...base.cause, label, confidence, version: null } };
     };
     await day('2026-11-18', [shift('2026-11-18', 'behaviour', 0.6)]);
@@ -223,9 +223,11 @@ describe('applyIncidentDrafts', () => {
     const list = await incidents();
     expect(list).toHaveLength(1);
     expect(list[0]).toMatchObject({ causeLabel: 'platform', daysSeen: 4, openedDay: '2026-11-18' });
-    // Another subject is another incident.
-    await day('2026-11-24', [draft({ day: '2026-11-24', subject: 'done' })]);
-    expect(await incidents()).toHaveLength(2);
+    // Two labels of the same shift on one day are one sighting; another subject is another incident.
+    await day('2026-11-24', [shift('2026-11-24', 'segment', 0.5), shift('2026-11-24', 'behaviour', 0.6, 'intro_opened'), draft({ day: '2026-11-24', subject: 'done' })]);
+    const last = await incidents();
+    expect(last).toHaveLength(2);
+    expect(last.find((i) => i.subject === 'intro')).toMatchObject({ daysSeen: 5, causeLabel: 'platform' });
   });
 
   it('opens a new incident when a resolved fingerprint comes back', async () => {
