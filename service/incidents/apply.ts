@@ -166,9 +166,10 @@ export const JOIN_DAYS = 3;
 
 /**
  * Hysteresis: an incident of the draft's flow about the same subject, on the
- * same platform and version (or on all of them), seen within JOIN_DAYS days
+ * same platform and version (or both on all), seen within JOIN_DAYS days
  * (resolved since by clean days, or not): the draft joins it, whatever cause
- * it was given. A shift that hovers around a threshold, or whose label wavers
+ * it was given. The scope must match exactly: an all-platform move is not
+ * folded into one platform's incident, nor a new release into an older one. A shift that hovers around a threshold, or whose label wavers
  * between two tests, stays one incident. Data delays and calendar notes have
  * their own fingerprints across subjects and never join.
  */
@@ -177,7 +178,7 @@ async function recentOnSameSubject(client: pg.ClientBase, s: string, draft: Inci
   const { rows } = await client.query<{ id: string; openedDay: Day }>({
     text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents
       where flow = $1 and subject = $2 and opened_day <= $3 and last_seen_day >= $3::date - $4::int
-        and (platform is null or $5::text is null or platform = $5) and (version is null or $6::text is null or version = $6)
+        and platform is not distinct from $5 and version is not distinct from $6
         and cause_label not in ('data_delay', 'calendar') and (resolution is null or resolution = 'clean_days')
       order by last_seen_day desc, opened_day, id limit 1 for update`,
     values: [draft.flows[0], draft.subject, day, JOIN_DAYS, draft.platform, draft.version],
