@@ -111,7 +111,8 @@ export function sliceInput(
   const events = within(history.events);
   // The window must be able to hold what is to be learnt.
   const needed = Math.min(learningDays, historyDays - 1);
-  const learnt = new Set(events.filter((row) => row.day < day && row.events > 0).map((row) => row.day)).size;
+  // Days with data before the judged day in the loaded history: a flow that learnt once does not relearn after a silence.
+  const learnt = [...history.dataDays].filter((d) => d < day).length;
   return {
     flow: history.flow,
     day,
