@@ -175,6 +175,13 @@ export interface CheckInput {
   timezone: string;
   /** `delivery.hide_values`: messages must not quote parameter values seen in the data. */
   hideValues?: boolean;
+  /**
+   * Set while the flow is still learning: it has data on fewer earlier days
+   * than `needed` (`judging.learning_days`). Checks that compare with history
+   * stay silent until then; the first sight of a series, key or value is its
+   * baseline, not a change.
+   */
+  learning?: { days: number; needed: number };
 }
 
 /** One point of the series behind a finding. */
@@ -246,4 +253,11 @@ export interface CheckModule<S extends z.ZodType = z.ZodType> {
    * no, only the checks with a gate run, and the day is judged again later.
    */
   gate?(input: CheckInput, options: WithPlatforms<z.output<S>>): Readiness;
+  /**
+   * The check compares the day with the flow's history: it does not run while
+   * the flow is learning (`CheckInput.learning`). A check that judges some
+   * things without history (schema's declared contracts) leaves this unset and
+   * reads `input.learning` itself.
+   */
+  needsHistory?: boolean;
 }

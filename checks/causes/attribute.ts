@@ -10,6 +10,7 @@ import { rateComparison } from '../stats/rate-comparison.js';
 import { twoProportionZ } from '../stats/two-proportion-z.js';
 import { weekday } from '../time.js';
 import { ALL_VERSIONS, type CheckInput, type Day, type Finding } from '../types.js';
+import { lostData } from './lost-data.js';
 import type { Cause } from './types.js';
 import {
   acrossSlices,
@@ -251,6 +252,11 @@ function movedPlatform(finding: Finding, input: CheckInput): string | undefined 
   return Math.abs(changeZ(input, measure, all(lead.platform), days)) >= CAUSE_THRESHOLDS.minZ ? lead.platform : undefined;
 }
 
+/**
+ * The pipeline: a freshness finding, or every watched series moving one way
+ * on an undeclared day with a mark of lost data in what came (lost-data.ts).
+ * The same move with intact data is people, one incident for the day.
+ */
 function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Finding[]): Attribution | undefined {
   if (finding.check === 'freshness') {
     return {
@@ -277,15 +283,31 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   if (expected < 2 || moved.size < Math.ceil(CAUSE_THRESHOLDS.movedTogetherShare * expected)) return undefined;
   // A stopped pipeline moves every dimension value alike; one value that moved apart from the rest is a segment.
   if (segment(finding, input)) return undefined;
+  const together = `${moved.size} of ${expected} watched event x platform series moved ${finding.direction} together on ${input.day}, a day with nothing declared`;
+  // Everything moving together is the pipeline only when the data that came shows what was lost; otherwise it is people.
+  const lost = finding.direction === 'down' ? lostData(input) : undefined;
+  if (!lost) {
+    return {
+      groupKey: `behaviour|together|${finding.direction}`,
+      cause: {
+        label: 'behaviour',
+        confidence: 0.6,
+        sentence: `${together}, with intact data (hours of the day, events per person, steps inside journeys): ${finding.direction === 'down' ? 'fewer' : 'more'} people doing the usual things. If ${input.day} was a holiday or a campaign, declare it in the calendar`,
+        platform: null,
+        version: null,
+        evidence: { movedSeries: moved.size, watchedSeries: expected },
+      },
+    };
+  }
   return {
     groupKey: 'data_delay',
     cause: {
       label: 'data_delay',
       confidence: 0.7,
-      sentence: `${moved.size} of ${expected} watched event x platform series moved ${finding.direction} together on ${input.day}, a day with nothing declared: the pipeline, not the people`,
+      sentence: `${together}, and ${lost.sentence}: the pipeline, not the people`,
       platform: null,
       version: null,
-      evidence: { movedSeries: moved.size, watchedSeries: expected },
+      evidence: { movedSeries: moved.size, watchedSeries: expected, lostData: lost.kind, ...lost.evidence },
     },
   };
 }

@@ -281,4 +281,5 @@ export const conversionCheck: CheckModule<typeof options> = {
   options,
   messages,
   run,
+  needsHistory: true,
 };

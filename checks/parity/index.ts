@@ -359,5 +359,6 @@ export const parityCheck: CheckModule<typeof options> = {
   options,
   messages,
   run,
+  needsHistory: true,
 };
 

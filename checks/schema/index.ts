@@ -28,7 +28,11 @@
  * they are news on the first day and known afterwards, so their test reads
  * every recent day, flagged or not. Values of a key the platform has sent on
  * fewer than seven of the recent days (one a release just renamed or added)
- * are part of the key's arrival, not news of their own.
+ * are part of the key's arrival, not news of their own. The first sight of an
+ * event on a platform is its baseline: its keys and values are not news.
+ *
+ * Learning: while the flow is learning (`judging.learning_days`), only the
+ * declared contract is judged; drift waits for its history.
  *
  * Where (scope.ts `localise`): when some versions break a rule and the other
  * versions, pooled, are clean, each is a finding of its own (a release);
@@ -138,7 +142,10 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
     const drafts = [
       ...(declared ? contractDrafts(scope, contract) : []),
       ...(declared && o.unknown_params !== 'off' ? undeclaredDrafts(scope, contract) : []),
-      ...driftDrafts(scope, { contract, stepKeys, stepValues, newKeys: !declared && o.unknown_params !== 'off', newValues: o.new_values !== 'off' }),
+      // Drift compares with the past: while the flow is learning, its first days are that past.
+      ...(input.learning
+        ? []
+        : driftDrafts(scope, { contract, stepKeys, stepValues, newKeys: !declared && o.unknown_params !== 'off', newValues: o.new_values !== 'off' })),
     ];
     for (const draft of dropYoungKeyValues(scope, dropEchoes(pairRenames(scope, drafts)))) findings.push(toFinding(scope, draft, o));
   }

@@ -280,6 +280,8 @@ export function driftDrafts(scope: EventScope, rules: DriftRules): Draft[] {
   const drafts: Draft[] = [];
   const { contract } = rules;
   const pastKeys = keysOn(scope, scope.past);
+  // An event the platform never sent on the recent days is seen for the first time: its keys and values are its baseline.
+  const seenBefore = scope.past.some((day) => (scope.profile.days.get(day)?.size ?? 0) > 0);
   const todayKeys = keysOn(scope, [scope.input.day]);
   type Judge = (versions: readonly string[], floor: boolean) => Verdict | null;
   type Details = (versions: readonly string[]) => Record<string, string>;
@@ -313,7 +315,7 @@ export function driftDrafts(scope: EventScope, rules: DriftRules): Draft[] {
       }));
     }
   }
-  if (rules.newKeys) {
+  if (rules.newKeys && seenBefore) {
     for (const key of todayKeys) {
       const measure = presence(key);
       if (notableBefore(scope, measure)) continue;
@@ -328,7 +330,7 @@ export function driftDrafts(scope: EventScope, rules: DriftRules): Draft[] {
     if (past === null || today === null) continue;
     drafts.push(...vanishedValues(scope, key, past, stepKey ? 'steps' : 'break'));
     const fresh = [...today].filter((id) => !notableBefore(scope, (day) => ({ x: valueCounts(day, key)?.get(id) ?? 0, n: scalarEvents(day, key) })));
-    if ((stepKey || rules.newValues) && !contract?.[key]?.enum && fresh.length > 0 && past.size > 0) {
+    if ((stepKey || rules.newValues) && seenBefore && !contract?.[key]?.enum && fresh.length > 0 && past.size > 0) {
       const measure: Measure = (day) => {
         const counts = valueCounts(day, key);
         return { x: fresh.reduce((sum, id) => sum + (counts?.get(id) ?? 0), 0), n: scalarEvents(day, key) };

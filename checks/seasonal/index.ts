@@ -255,4 +255,5 @@ export const seasonalCheck: CheckModule<typeof options> = {
   options,
   messages,
   run,
+  needsHistory: true,
 };

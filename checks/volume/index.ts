@@ -292,4 +292,5 @@ export const volumeCheck: CheckModule<typeof options> = {
   options,
   messages,
   run,
+  needsHistory: true,
 };

@@ -4,6 +4,7 @@ import { addDays } from '../config/definitions.js';
 import { severityLabel } from '../delivery/marks.js';
 import { causeWords } from '../delivery/present.js';
 import { SEVERITY_RANK, type Incident } from '../incidents/types.js';
+import { isLearningReason } from '../pipeline/judge.js';
 import type { FunnelDaySummary, StoredFinding } from '../state/summary.js';
 
 const SEVERITY_ORDER: Severity[] = ['page', 'warn', 'note'];
@@ -69,7 +70,10 @@ export function formatDayPicture(
       const mark = verdict?.verdict === 'not_ready' ? '?' : loud.length > 0 ? '!' : dayFindings.length > 0 ? '·' : ' ';
       const weekday = WEEKDAY[new Date(`${day}T12:00:00Z`).getUTCDay()]!;
       const checks = [...new Set(loud.map((f) => f.check))].join(',');
-      out.push(`${day} ${weekday}${mark} ${cells.join(' ')}${checks ? ` ${checks}` : ''}`);
+      // A day judged while the flow was still learning its baseline says so ("learning: 12 of 28 days").
+      const learning = verdict?.verdict === 'judged' && isLearningReason(verdict.reason) ? verdict.reason! : '';
+      const notes = [checks, learning].filter((part) => part !== '').join(' ');
+      out.push(`${day} ${weekday}${mark} ${cells.join(' ')}${notes ? ` ${notes}` : ''}`);
     }
   }
   return out.join('\n');

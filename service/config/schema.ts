@@ -155,8 +155,17 @@ export const mainSchema = z
           .max(60)
           .default(7)
           .describe('Past days whose event counts are re-probed for late rows at every run.'),
+        learning_days: z
+          .number()
+          .int()
+          .min(0)
+          .max(365)
+          .default(28)
+          .describe(
+            'Days with data a flow needs before the checks that compare with history judge it (at most history_days - 1); until then only freshness and declared contracts speak, and the first sight of a key or value is its baseline.',
+          ),
       })
-      .default({ settle_time: 7200, history_days: 120, restatement_days: 7 })
+      .default({ settle_time: 7200, history_days: 120, restatement_days: 7, learning_days: 28 })
       .describe('When a day is judged and how much history the checks see.'),
     calendar: z.array(calendarEntry).default([]).describe('Expected highs and lows for every flow.'),
     owners: z.record(slug(), owner).default({}).describe('Owners named by the flow files.'),

@@ -99,9 +99,11 @@ function renderSlack(input: ChatInput): SlackMessage {
   if (event === 'resolved') {
     const lasted = `${incident.openedDay} to ${incident.lastSeenDay}, seen on ${incident.daysSeen} judged day${incident.daysSeen === 1 ? '' : 's'}`;
     const why =
-      incident.resolution === 'withdrawn'
-        ? `Judging ${incident.resolvedDay} again no longer shows it.`
-        : `Not seen on ${input.resolveAfterDays} judged day${input.resolveAfterDays === 1 ? '' : 's'} after ${incident.lastSeenDay}.`;
+      incident.resolution === 'late_data'
+        ? `Late rows restated ${incident.resolvedDay}; judged again with them, the data no longer shows it: it was data arriving late (data delay), not a change.`
+        : incident.resolution === 'withdrawn'
+          ? `Judging ${incident.resolvedDay} again no longer shows it.`
+          : `Not seen on ${input.resolveAfterDays} judged day${input.resolveAfterDays === 1 ? '' : 's'} after ${incident.lastSeenDay}.`;
     fallback = `resolved ${RESOLVED_MARK}: ${headline} (${flow}, ${where})`;
     blocks.push(section(`*resolved* ${RESOLVED_MARK} · ${flow} · ${where}\n*${headline}*`));
     blocks.push(section(`${why} It lasted ${lasted}. ${ownersLine(incident.owners, (owner) => chatText(owner, 80))}.`));

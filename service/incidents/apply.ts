@@ -63,6 +63,9 @@ const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
  * measures the wait between messages (`incidents.repeat_after`). With
  * `quiet` (a backfill's days older than the catch-up window) incidents change
  * as usual but no message is queued: history is not news.
+ * With `lateRows` (the day is judged again because late rows restated it),
+ * incidents the day's first judgement opened that the complete data no longer
+ * shows close as late data (see closeAsLateData).
  */
 export async function applyIncidentDrafts(
   client: pg.ClientBase,
@@ -72,7 +75,7 @@ export async function applyIncidentDrafts(
   drafts: readonly IncidentDraft[],
   policy: IncidentPolicy,
   now: Date,
-  options: { quiet?: boolean } = {},
+  options: { quiet?: boolean; lateRows?: boolean } = {},
 ): Promise<IncidentChanges> {
   for (const draft of drafts) {
     const stranger = draft.flows.find((flow) => !flows.includes(flow));
@@ -96,7 +99,8 @@ export async function applyIncidentDrafts(
         order by opened_day desc limit 1 for update`,
       values: [draft.fingerprint, day],
     });
-    let id = rows[0]?.id;
+    const episode = rows[0] ?? (await recentOnSameSubject(client, s, draft, day));
+    let id = episode?.id;
     if (id === undefined) {
       id = incidentId(draft.flows[0]!, draft.fingerprint, day);
       await client.query({
@@ -123,11 +127,18 @@ export async function applyIncidentDrafts(
         ],
       });
     }
-    ((rows[0]?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    if (!seen.has(id)) ((episode?.openedDay ?? day) === day ? changes.opened : changes.ongoing).push(id);
+    // Two drafts of the day that join one incident are one sighting: the first keeps its title and cause, symptoms add up.
     await client.query({
-      text: `insert into ${s}.incident_days (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
-        values ($1, $2, $3, $4, $5, $6, $7, $8, $9)`,
-      values: [id, draft.flows, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms)],
+      text: `insert into ${s}.incident_days as d (incident_id, flows, day, since, severity, muted, title, cause, symptoms)
+        values ($1, $2, $3, $4, $5, $6, $7, $8, $9)
+        on conflict (incident_id, day) do update set
+          flows = d.flows || array(select f from unnest(excluded.flows) as f where f <> all(d.flows)),
+          since = least(d.since, excluded.since),
+          severity = case when array_position($10::text[], excluded.severity) > array_position($10::text[], d.severity) then excluded.severity else d.severity end,
+          muted = d.muted and excluded.muted,
+          symptoms = d.symptoms || excluded.symptoms`,
+      values: [id, draft.flows, day, draft.since, draft.severity, draft.muted, draft.title, JSON.stringify(draft.cause), JSON.stringify(draft.symptoms), SEVERITIES],
     });
     // A flow that sees the incident later joins the flows it holds back, its owner the owners.
     await client.query({
@@ -141,12 +152,38 @@ export async function applyIncidentDrafts(
     seen.add(id);
   }
   await refreshFromSightings(client, s, [...touched], now);
-  const resolved = await settle(client, schema, flows, day, [...touched], policy, now);
+  const late = options.lateRows ? await closeAsLateData(client, s, day, [...touched].filter((id) => !seen.has(id)), now) : [];
+  const resolved = [...(await loadIncidents(client, schema, late)), ...(await settle(client, schema, flows, day, [...touched], policy, now))];
   changes.resolved = resolved.map((incident) => incident.id);
   if (options.quiet) return changes;
   changes.queued += await announceResolved(client, schema, resolved, policy, now);
   changes.queued += await announceSeen(client, schema, [...seen], day, policy, now);
   return changes;
+}
+
+/** Days within which a finding on the subject of a recent incident joins it instead of opening another (common practice: "a few days"). */
+export const JOIN_DAYS = 3;
+
+/**
+ * Hysteresis: an incident of the draft's flow about the same subject, on the
+ * same platform and version (or both on all), seen within JOIN_DAYS days
+ * (resolved since by clean days, or not): the draft joins it, whatever cause
+ * it was given. The scope must match exactly: an all-platform move is not
+ * folded into one platform's incident, nor a new release into an older one. A shift that hovers around a threshold, or whose label wavers
+ * between two tests, stays one incident. Data delays and calendar notes have
+ * their own fingerprints across subjects and never join.
+ */
+async function recentOnSameSubject(client: pg.ClientBase, s: string, draft: IncidentDraft, day: Day): Promise<{ id: string; openedDay: Day } | undefined> {
+  if (draft.cause.label === 'data_delay' || draft.cause.label === 'calendar') return undefined;
+  const { rows } = await client.query<{ id: string; openedDay: Day }>({
+    text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents
+      where flow = $1 and subject = $2 and opened_day <= $3 and last_seen_day >= $3::date - $4::int
+        and platform is not distinct from $5 and version is not distinct from $6
+        and cause_label not in ('data_delay', 'calendar') and (resolution is null or resolution = 'clean_days')
+      order by last_seen_day desc, opened_day, id limit 1 for update`,
+    values: [draft.flows[0], draft.subject, day, JOIN_DAYS, draft.platform, draft.version],
+  });
+  return rows[0];
 }
 
 /** Recomputes an incident's days, latest details and highest severity from its sightings. */
@@ -159,8 +196,12 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
           max(case d.severity when 'page' then 3 when 'warn' then 2 else 1 end) as rank
         from ${s}.incident_days d join t on t.id = d.incident_id group by d.incident_id),
       latest as (
-        select distinct on (d.incident_id) d.incident_id, d.title, d.muted, d.cause->>'label' as label
-        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, d.day desc)
+        select distinct on (d.incident_id) d.incident_id, d.title, d.muted
+        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, d.day desc),
+      -- The label does not flip without new evidence: the strongest cause seen wins, the earliest on a tie.
+      strongest as (
+        select distinct on (d.incident_id) d.incident_id, d.cause->>'label' as label
+        from ${s}.incident_days d join t on t.id = d.incident_id order by d.incident_id, (d.cause->>'confidence')::float8 desc, d.day)
       update ${s}.incidents i set
         days_seen = coalesce(agg.n, 0),
         last_seen_day = coalesce(agg.last_day, i.last_seen_day),
@@ -168,12 +209,29 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
         severity = coalesce(($3::text[])[agg.rank], i.severity),
         title = coalesce(latest.title, i.title),
         muted = coalesce(latest.muted, i.muted),
-        cause_label = coalesce(latest.label, i.cause_label),
+        cause_label = case when i.resolution = 'late_data' then i.cause_label else coalesce(strongest.label, i.cause_label) end,
         updated_at = $2
-      from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id
+      from t left join agg on agg.incident_id = t.id left join latest on latest.incident_id = t.id left join strongest on strongest.incident_id = t.id
       where i.id = t.id`,
     values: [ids, now, SEVERITIES],
   });
+}
+
+/**
+ * Late rows restated `day` and it was judged again: of the incidents its
+ * first judgement opened, those the complete data no longer shows (`gone`,
+ * not seen on the day any more) were missing data, not a change. They close
+ * as late data, labelled data delay, and keep their other days' sightings;
+ * an announced one gets one resolution message saying so. Returns their ids.
+ */
+async function closeAsLateData(client: pg.ClientBase, s: string, day: Day, gone: string[], now: Date): Promise<string[]> {
+  if (gone.length === 0) return [];
+  const { rows } = await client.query<{ id: string }>({
+    text: `update ${s}.incidents set status = 'resolved', resolution = 'late_data', resolved_day = $2, resolved_at = $3, cause_label = 'data_delay', updated_at = $3
+      where id = any($1) and opened_day = $2 and resolution is distinct from 'late_data' returning id`,
+    values: [gone, day, now],
+  });
+  return rows.map((row) => row.id);
 }
 
 interface SettleRow {
@@ -200,7 +258,7 @@ async function settle(client: pg.ClientBase, schema: string, flows: readonly str
           where j.flow = any(i.flows) and j.day > i.last_seen_day
           group by j.day having bool_and(j.verdict = 'judged') order by j.day offset $3 limit 1) as "cleanDay"
       from ${s}.incidents i
-      where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4))
+      where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4)) and i.resolution is distinct from 'late_data'
       order by i.id for update of i`,
     values: [flows, day, policy.resolveAfterDays - 1, touched],
   });

@@ -37,7 +37,8 @@ export interface Incident {
   lastSeenDay: Day;
   daysSeen: number;
   resolvedDay: Day | null;
-  resolution: 'clean_days' | 'withdrawn' | null;
+  /** clean_days: not seen for `resolve_after_days`; withdrawn: a rerun no longer showed it; late_data: late rows restated its first day and the complete data no longer shows it. */
+  resolution: 'clean_days' | 'withdrawn' | 'late_data' | null;
   notifiedSeverity: Severity | null;
   lastNotifiedAt: string | null;
   openedAt: string;

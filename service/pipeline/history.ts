@@ -97,6 +97,7 @@ export function sliceInput(
   now: string,
   timezone: string,
   hideValues = false,
+  learningDays = 0,
 ): CheckInput {
   const days = windowDays(day, historyDays, history.dataDays, history.from);
   const from = days[0]!;
@@ -107,11 +108,16 @@ export function sliceInput(
     const slice = rows.slice(firstAtOrAfter(rows, from), firstAtOrAfter(rows, addDays(day, 1)));
     return skipped ? slice.filter((row) => inWindow.has(row.day)) : slice;
   };
+  const events = within(history.events);
+  // The window must be able to hold what is to be learnt.
+  const needed = Math.min(learningDays, historyDays - 1);
+  // Days with data before the judged day in the loaded history: a flow that learnt once does not relearn after a silence.
+  const learnt = [...history.dataDays].filter((d) => d < day).length;
   return {
     flow: history.flow,
     day,
     days,
-    events: within(history.events),
+    events,
     params: within(history.params),
     funnel: within(history.funnel),
     steps: within(history.steps),
@@ -121,6 +127,7 @@ export function sliceInput(
     now,
     timezone,
     hideValues,
+    ...(learnt < needed ? { learning: { days: learnt, needed } } : {}),
   };
 }
 

@@ -14,6 +14,17 @@ export interface Judgement {
   errors: Array<{ check: string; error: Error }>;
 }
 
+const LEARNING = 'learning: ';
+
+/** The reason stored with a day judged while the flow was learning: "learning: 12 of 28 days". */
+export function learningReason(learning: NonNullable<CheckInput['learning']>): string {
+  return `${LEARNING}${learning.days} of ${learning.needed} days`;
+}
+
+export function isLearningReason(reason: string | null | undefined): boolean {
+  return reason?.startsWith(LEARNING) ?? false;
+}
+
 type Options = WithPlatforms<Record<string, unknown>> & { enabled: boolean };
 
 export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly CheckModule[] = registry): Judgement {
@@ -23,7 +34,7 @@ export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly C
     .filter((entry): entry is { check: CheckModule; options: Options } => entry.options?.enabled === true);
 
   let verdict: Judgement['verdict'] = 'judged';
-  let reason: string | undefined;
+  let reason: string | undefined = input.learning ? learningReason(input.learning) : undefined;
   // A day without a single event is no evidence that all is well: it is held back whatever the checks say.
   if (!input.status.some((row) => row.day === input.day && row.events > 0 && input.flow.platforms.includes(row.platform))) {
     verdict = 'not_ready';
@@ -45,6 +56,8 @@ export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly C
   const findings: Finding[] = [];
   for (const { check, options } of active) {
     if (verdict === 'not_ready' && !check.gate) continue;
+    // The first days are the baseline: a check that compares with history waits until the flow has learnt it.
+    if (input.learning && check.needsHistory) continue;
     try {
       findings.push(...check.run(input, options));
     } catch (error) {

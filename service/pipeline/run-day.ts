@@ -105,7 +105,7 @@ export async function judgeDays(
   days: string[],
   clock: (day: string) => Date,
   target?: JudgeTarget,
-  options: { quiet?: boolean } = {},
+  options: { quiet?: boolean; lateRows?: boolean } = {},
 ): Promise<FlowJudgement[]> {
   if (days.length === 0) return [];
   const historyDays = rt.config.main.judging.history_days;
@@ -142,7 +142,7 @@ export async function judgeDays(
   for (const day of days) {
     const judge = async (): Promise<FlowJudgement[]> => {
       const judged = flows.map(({ flow, config, history, anomalous }) => {
-        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values);
+        const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values, rt.config.main.judging.learning_days);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
         return { flow: flow.id, day, ...result, incidents: analyseCauses(input, result.findings) };
@@ -172,12 +172,28 @@ export function replayClock(rt: Runtime): (day: string) => Date {
   return (day) => new Date(dayEnd(day, rt.timezone).getTime() + settle);
 }
 
-/** The daily run for one business day: late-row probe, rollup, judgement. */
+/**
+ * The daily run for one business day: late-row probe, rollup, judgement. A
+ * past day the probe found restated is judged again first, with its late
+ * rows: incidents its first judgement opened on missing data close as late
+ * data (applyIncidentDrafts).
+ */
 export async function runDay(rt: Runtime, day: string, options: RunOptions): Promise<{ restated: string[]; rollup: RollupResult; judgements: FlowJudgement[] }> {
   const restated = await probeRestatements(rt, day);
+  for (const past of await judgedAmong(rt, restated)) await judgeDays(rt, [past], () => options.now, undefined, { lateRows: true });
   const [rollup] = await rollupRange(rt, [day]);
   const judgements = await judgeDays(rt, [day], () => options.now);
   return { restated, rollup: rollup!, judgements };
+}
+
+/** The days among `days` that were judged (not held back): those a restatement makes worth judging again. */
+async function judgedAmong(rt: Runtime, days: string[]): Promise<string[]> {
+  if (days.length === 0) return [];
+  const { rows } = await rt.state.query<{ day: string }>({
+    text: `select distinct to_char(day, 'YYYY-MM-DD') as day from ${quoteIdent(rt.stateSchema)}.judged_days where day = any($1::date[]) and verdict = 'judged' order by 1`,
+    values: [days],
+  });
+  return rows.map((row) => row.day);
 }
 
 /** Records a unit of work in `runs`; a failure is stored and rethrown, never swallowed. */

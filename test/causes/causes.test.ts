@@ -76,12 +76,30 @@ describe('analyseCauses', () => {
     expect(ordinary.cause.segment?.value).toBe('US');
   });
 
-  it('calls an undeclared move of every event on every platform a data delay, and freshness findings too', () => {
-    const input = buildInput({ breakage: () => ({ volume: 0.5 }) });
+  it('calls an undeclared move of every event on every platform a data delay only with evidence of lost data, and freshness findings too', () => {
     const volume = (platform: string, event: string) =>
       finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform });
     const all = ['web', 'android', 'ios'].flatMap((p) => [volume(p, 'screen_shown'), volume(p, 'pass_purchase_result')]);
-    expect(onlyDraft(analyseCauses(input, all)).cause.label).toBe('data_delay');
+    // Half the people, each doing the usual things (an undeclared holiday): behaviour, one incident, and a hint to declare the day.
+    const holiday = onlyDraft(analyseCauses(buildInput({ breakage: () => ({ volume: 0.5 }) }), all));
+    expect(holiday.cause.label).toBe('behaviour');
+    expect(holiday.cause.sentence).toContain(`If ${DAY} was a holiday or a campaign, declare it in the calendar`);
+    // Rows lost inside journeys: the later steps of people's journeys are missing, so completion falls.
+    const lost = onlyDraft(analyseCauses(buildInput({ breakage: () => ({ volume: 0.5, rider: 0.6, done: 0.6 }) }), all));
+    expect(lost.cause.label).toBe('data_delay');
+    expect(lost.cause.evidence.lostData).toBe('journeys');
+    // Hours missing from the day's profile: the same counts, three busy hours empty on every platform.
+    const hours = buildInput({ breakage: () => ({ volume: 0.5 }) });
+    const profile = (missing: boolean): number[] => Array.from({ length: 24 }, (_, hour) => (missing && hour >= 10 && hour <= 12 ? 0 : hour < 6 ? 50 : 400));
+    hours.status = hours.days.flatMap((day) =>
+      FLOW.platforms.map((platform) => {
+        const hourly = profile(day === DAY);
+        return { day, platform, events: hourly.reduce((a, b) => a + b, 0), newestAt: null, hourly, rolledUpAt: '2026-10-21T06:00:00Z', previousEvents: null };
+      }),
+    );
+    const gap = onlyDraft(analyseCauses(hours, all));
+    expect(gap.cause.label).toBe('data_delay');
+    expect(gap.cause.sentence).toContain('missing 3 hours of the day (local hour 10, 11, 12)');
 
     const partial = finding({ check: 'freshness', metric: 'hourly_events', subject: { type: 'day', name: DAY }, platform: null, kind: 'partial_day' });
     expect(onlyDraft(analyseCauses(buildInput(), [partial])).cause.label).toBe('data_delay');

@@ -210,6 +210,23 @@ describe('schema: drift against recent days', () => {
     expect(summary(run(later).filter((f) => f.subject.name === 'screen_shown.source')), explain(later)).toEqual(['new_value web null screen_shown.source note']);
   });
 
+  it('takes the first sight of an event as its baseline: its keys and values are not news', () => {
+    // The platform sends screen_shown for the first time today (a backfill's first day, a platform added later).
+    const first = checkInput(passFlow(), DAYS, profileHistory([TODAY], 'screen_shown', 'web', { '': () => ({ total: 3000, keys: referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } }) }) }));
+    expect(summary(run(first)), explain(first)).toEqual([]);
+  });
+
+  it('judges only the declared contract while the flow is learning its history', () => {
+    const learning = { days: 12, needed: 28 };
+    const newKey = checkInput(passFlow(), DAYS, webViews(referrerKeys({ session_tag: { share: 0.5, values: { x: 1 } } })));
+    expect(summary(run({ ...newKey, learning })), explain(newKey)).toEqual([]);
+    const vanished = checkInput(passFlow(), DAYS, webViews(referrerKeys({ referrer: { share: 0 } })));
+    expect(summary(run({ ...vanished, learning }))).toEqual([]);
+    // A contract needs no history: a broken rule is reported from the first day.
+    const wrongType = checkInput(passFlow(), DAYS, profileHistory([TODAY], 'zone_selected', 'web', { '': () => ({ total: 500, keys: zoneKeys({ fare_zone: { type: 'number', minNumber: 1, maxNumber: 3 } }) }) }));
+    expect(summary(run({ ...wrongType, learning })).map((line) => line.split(' ')[0])).toContain('wrong_type');
+  });
+
   it('reports new values of a low-cardinality key without an enum (an enum turns them into contract breaks)', () => {
     const input = checkInput(passFlow(), DAYS, webViews(referrerKeys({ referrer: { share: 0.3, values: { home: 0.4, menu: 0.3, notification: 0.1, push: 0.2 } } })));
     const findings = run(input);

@@ -186,4 +186,20 @@ describe('terminal report', () => {
     expect(every.filter((line) => / finding on 2026-/.test(line))).toHaveLength(288);
     expect(every.findIndex((line) => /^Incidents/.test(line))).toBe(incidentsAt);
   });
+
+  it('says on each day judged while a flow was learning how far it got', () => {
+    const days = daysBetween('2026-07-01', '2026-07-03');
+    const summary: RangeSummary = {
+      from: days[0]!,
+      to: days[days.length - 1]!,
+      funnels: days.flatMap((day) => PLATFORMS.map((platform) => ({ day, flow: 'monthly_pass', platform, entered: 1000, completed: 450 }))),
+      findings: [],
+      judged: days.map((day, i) => ({ flow: 'monthly_pass', day, verdict: 'judged' as const, reason: i < 2 ? `learning: ${26 + i} of 28 days` : null })),
+      incidents: [],
+    };
+    const lines = formatSummary([FLOWS[1]!], summary, { pictureDays: 14, allFindings: false }).split('\n');
+    expect(lines.find((line) => line.startsWith('2026-07-01'))).toMatch(/ learning: 26 of 28 days$/);
+    expect(lines.find((line) => line.startsWith('2026-07-02'))).toMatch(/ learning: 27 of 28 days$/);
+    expect(lines.find((line) => line.startsWith('2026-07-03'))).not.toContain('learning');
+  });
 });

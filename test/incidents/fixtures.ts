@@ -155,7 +155,7 @@ export async function judge(
   schema: string,
   day: string,
   drafts: IncidentDraft[],
-  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy } = {},
+  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
 ): Promise<IncidentChanges> {
   return await judgeFlows(pool, schema, day, [{ flow: FLOW, drafts, verdict: options.verdict ?? 'judged' }], options);
 }
@@ -166,7 +166,7 @@ export async function judgeFlows(
   schema: string,
   day: string,
   flows: Array<{ flow: string; drafts: IncidentDraft[]; verdict?: 'judged' | 'not_ready' }>,
-  options: { now?: Date; policy?: IncidentPolicy } = {},
+  options: { now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
 ): Promise<IncidentChanges> {
   const client = await pool.connect();
   try {
@@ -175,7 +175,9 @@ export async function judgeFlows(
       await storeJudgement(client, schema, flow, day, verdict ?? 'judged', undefined, drafts.flatMap((d) => d.symptoms));
     }
     const drafts = flows.flatMap((f) => f.drafts);
-    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day));
+    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day), {
+      lateRows: options.lateRows ?? false,
+    });
     await client.query('commit');
     return changes;
   } catch (error) {

@@ -29,7 +29,7 @@ afterEach(async () => {
   await db.drop();
 });
 
-async function day(d: string, drafts: IncidentDraft[], options: { verdict?: 'judged' | 'not_ready'; now?: Date } = {}) {
+async function day(d: string, drafts: IncidentDraft[], options: { verdict?: 'judged' | 'not_ready'; now?: Date; lateRows?: boolean } = {}) {
   applied.push({ day: d, verdict: options.verdict ?? 'judged', drafts: drafts.map(({ fingerprint, severity, muted }) => ({ fingerprint, severity, muted })) });
   return await judge(db.pool, db.schema, d, drafts, options);
 }
@@ -203,6 +203,33 @@ describe('applyIncidentDrafts', () => {
     expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([['opened', '2026-11-19']]);
   });
 
+  it('keeps a shift that hovers around its thresholds one incident, whose label changes only on stronger evidence', async () => {
+    // android lost a quarter of its people at the intro step: findings come and go, labelled behaviour one day, segment the next.
+    const shift = (d: string, label: 'behaviour' | 'segment' | 'platform', confidence: number, event = 'screen_shown') => {
+      const base = draft({ day: d, subject: 'intro', event, version: '', fingerprint: `${FLOW}|${label}|intro|${label === 'platform' ? 'android' : '*'}|*` });
+      return { ...base, version: null, cause: { ...base.cause, label, confidence, version: null } };
+    };
+    await day('2026-11-18', [shift('2026-11-18', 'behaviour', 0.6)]);
+    await day('2026-11-19', [shift('2026-11-19', 'segment', 0.5)]);
+    await day('2026-11-20', []);
+    await day('2026-11-21', []);
+    // Resolved after two clean days; seen again within JOIN_DAYS of its last sighting: the same incident, still behaviour.
+    expect((await incidents())[0]).toMatchObject({ status: 'resolved', causeLabel: 'behaviour' });
+    await day('2026-11-22', [shift('2026-11-22', 'segment', 0.55)]);
+    expect(await incidents()).toHaveLength(1);
+    expect((await incidents())[0]).toMatchObject({ status: 'ongoing', causeLabel: 'behaviour', daysSeen: 3, resolvedDay: null });
+    // Stronger evidence does change it.
+    await day('2026-11-23', [shift('2026-11-23', 'platform', 0.9)]);
+    const list = await incidents();
+    expect(list).toHaveLength(1);
+    expect(list[0]).toMatchObject({ causeLabel: 'platform', daysSeen: 4, openedDay: '2026-11-18' });
+    // Two labels of the same shift on one day are one sighting; another subject is another incident.
+    await day('2026-11-24', [shift('2026-11-24', 'segment', 0.5), shift('2026-11-24', 'behaviour', 0.6, 'intro_opened'), draft({ day: '2026-11-24', subject: 'done' })]);
+    const last = await incidents();
+    expect(last).toHaveLength(2);
+    expect(last.find((i) => i.subject === 'intro')).toMatchObject({ daysSeen: 5, causeLabel: 'platform' });
+  });
+
   it('opens a new incident when a resolved fingerprint comes back', async () => {
     await day('2026-11-18', [draft({ day: '2026-11-18' })]);
     await day('2026-11-19', []);
@@ -254,6 +281,30 @@ describe('applyIncidentDrafts', () => {
     const [after] = await incidents();
     expect(after).toMatchObject({ id: before!.id, status: 'resolved', resolution: 'withdrawn', daysSeen: 0, resolvedDay: '2026-11-18' });
     expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened', 'resolved']);
+  });
+
+  it('closes what the first judgement of a day saw on missing data as late data, once its late rows arrive', async () => {
+    // 2026-11-18 lost 30% of android's rows at first: a platform drop and a behaviour move; a release break began the day before.
+    const release = (d: string) => draft({ day: d, since: '2026-11-17' });
+    const platform = draft({ day: '2026-11-18', fingerprint: `${FLOW}|platform|intro|android|*`, subject: 'intro', version: '' });
+    const behaviour = draft({ day: '2026-11-18', fingerprint: `${FLOW}|behaviour|done|*|*`, subject: 'done', severity: 'note' });
+    await day('2026-11-17', [release('2026-11-17')]);
+    await day('2026-11-18', [release('2026-11-18'), platform, behaviour]);
+    await day('2026-11-19', [release('2026-11-19')]);
+    // The rows arrive on 2026-11-20: the daily run judges 2026-11-18 again with them; only the release break is left.
+    await day('2026-11-18', [release('2026-11-18')], { lateRows: true, now: clockFor('2026-11-20') });
+    await day('2026-11-20', [release('2026-11-20')]);
+    const byFingerprint = new Map((await incidents()).map((i) => [i.fingerprint, i]));
+    for (const closed of [platform, behaviour]) {
+      expect(byFingerprint.get(closed.fingerprint)).toMatchObject({ status: 'resolved', resolution: 'late_data', causeLabel: 'data_delay', resolvedDay: '2026-11-18', openedDay: '2026-11-18' });
+    }
+    expect(byFingerprint.get(release('2026-11-17').fingerprint)).toMatchObject({ status: 'ongoing', resolution: null, causeLabel: 'release', daysSeen: 4 });
+    // One message each for what was announced: the platform drop's opening, then its closing as late data; the note stays silent.
+    const messages = await outboxRows(db.pool, db.schema);
+    const platformId = byFingerprint.get(platform.fingerprint)!.id;
+    expect(messages.filter((m) => m.incident_id === platformId).map((m) => m.event)).toEqual(['opened', 'resolved']);
+    expect(JSON.stringify(messages.find((m) => m.incident_id === platformId && m.event === 'resolved')!.payload)).toContain('Late rows restated 2026-11-18');
+    expect(messages.filter((m) => m.incident_id === byFingerprint.get(behaviour.fingerprint)!.id)).toEqual([]);
   });
 
   it('rejects drafts of another flow or day', async () => {

@@ -123,7 +123,12 @@ const ROOT = '../';
 
 function statusText(incident: Incident): string {
   if (incident.status !== 'resolved') return `${escapeHtml(incident.status)}${incident.muted ? ' (muted: recorded, not announced)' : ''}`;
-  const how = incident.resolution === 'withdrawn' ? 'withdrawn: a rerun of its days no longer showed it' : 'not seen again for the configured number of judged days';
+  const how =
+    incident.resolution === 'late_data'
+      ? 'late data: late rows restated its first day, and judged again with them it no longer showed'
+      : incident.resolution === 'withdrawn'
+        ? 'withdrawn: a rerun of its days no longer showed it'
+        : 'not seen again for the configured number of judged days';
   return `resolved ${RESOLVED_MARK} on ${dayText(incident.resolvedDay)} (${escapeHtml(how)})`;
 }
 

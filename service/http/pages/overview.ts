@@ -170,7 +170,7 @@ ${dataTable({
       clientText(incident.flows.join(', ')),
       dayText(incident.since),
       dayText(incident.resolvedDay),
-      escapeHtml(incident.resolution === 'withdrawn' ? 'withdrawn' : 'clean days'),
+      escapeHtml(incident.resolution === 'late_data' ? 'late data' : incident.resolution === 'withdrawn' ? 'withdrawn' : 'clean days'),
       clientText(causeWords(incident.causeLabel)),
     ],
   })),
