@@ -284,8 +284,8 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
   // A stopped pipeline moves every dimension value alike; one value that moved apart from the rest is a segment.
   if (segment(finding, input)) return undefined;
   const together = `${moved.size} of ${expected} watched event x platform series moved ${finding.direction} together on ${input.day}, a day with nothing declared`;
-  // Everything moving together is the pipeline only when the data that came shows what was lost; otherwise it is people.
-  const lost = finding.direction === 'down' ? lostData(input) : undefined;
+  // Everything moving together is the pipeline only when the data that came shows it (rows lost, or loaded twice); otherwise it is people.
+  const lost = finding.direction === 'down' || finding.direction === 'up' ? lostData(input, finding.direction) : undefined;
   if (!lost) {
     return {
       groupKey: `behaviour|together|${finding.direction}`,

@@ -7,7 +7,10 @@
  * - steps missing inside journeys (people reach a later step without the
  *   earlier one's row, so the end-to-end completion falls).
  * A holiday or a quiet day has none of these: fewer people, each behaving as
- * usual. Pure: reads only the CheckInput rows.
+ * usual. On a rise, the pipeline's mark is the opposite one: rows loaded twice
+ * raise events per person (the same people, each event counted again), where a
+ * campaign brings more people doing the usual things. Pure: reads only the
+ * CheckInput rows.
  */
 import { formatPercent } from '../messages.js';
 import { rateComparison } from '../stats/rate-comparison.js';
@@ -21,24 +24,29 @@ export const LOST_DATA_THRESHOLDS = {
   hourShare: 0.25,
   /** ... when at least this many events were due in it (quiet night hours are noise). */
   minHourEvents: 20,
-  /** Events per person or end-to-end completion must fall by at least this share of their usual level ... */
-  minDrop: 0.1,
+  /** Events per person or end-to-end completion must move by at least this share of their usual level ... */
+  minChange: 0.1,
   /** ... with a p-value below this (two-proportion test or rate comparison). */
   pValue: 1e-6,
 };
 
 export interface LostData {
   /** Which mark was found. */
-  kind: 'hours' | 'events_per_person' | 'journeys';
+  kind: 'hours' | 'events_per_person' | 'journeys' | 'rows_twice';
   /** Plain-text account with its numbers. */
   sentence: string;
   evidence: Record<string, number | string>;
 }
 
-/** The first mark of lost data on the judged day, or undefined when the data that came looks intact. */
-export function lostData(input: CheckInput): LostData | undefined {
+/**
+ * The first mark of the pipeline on the judged day, for a move of everything in
+ * `direction`: lost data on a drop, rows loaded twice on a rise; undefined when
+ * the data that came looks intact.
+ */
+export function lostData(input: CheckInput, direction: 'down' | 'up'): LostData | undefined {
   const days = baselineDays(input);
-  return missingHours(input, days) ?? fewerEventsPerPerson(input, days) ?? brokenJourneys(input, days);
+  if (direction === 'up') return eventsPerPerson(input, days, 'up');
+  return missingHours(input, days) ?? eventsPerPerson(input, days, 'down') ?? brokenJourneys(input, days);
 }
 
 function missingHours(input: CheckInput, days: readonly Day[]): LostData | undefined {
@@ -68,7 +76,8 @@ function missingHours(input: CheckInput, days: readonly Day[]): LostData | undef
   return undefined;
 }
 
-function fewerEventsPerPerson(input: CheckInput, days: readonly Day[]): LostData | undefined {
+/** Events per person of the watched events, all platforms: fewer when rows were lost, more when rows were loaded twice. */
+function eventsPerPerson(input: CheckInput, days: readonly Day[], direction: 'down' | 'up'): LostData | undefined {
   const sum = (day: Day) => {
     let events = 0;
     let people = 0;
@@ -83,9 +92,17 @@ function fewerEventsPerPerson(input: CheckInput, days: readonly Day[]): LostData
   const usual = days.map(sum).reduce((a, b) => ({ events: a.events + b.events, people: a.people + b.people }), { events: 0, people: 0 });
   if (!(today.people > 0 && usual.people > 0 && usual.events > 0)) return undefined;
   const change = today.events / today.people / (usual.events / usual.people) - 1;
-  if (!(change <= -LOST_DATA_THRESHOLDS.minDrop)) return undefined;
+  const sign = direction === 'down' ? -1 : 1;
+  if (!(sign * change >= LOST_DATA_THRESHOLDS.minChange)) return undefined;
   const { pValue } = rateComparison(today.events, today.people, usual.events, usual.people);
   if (!(pValue < LOST_DATA_THRESHOLDS.pValue)) return undefined;
+  if (direction === 'up') {
+    return {
+      kind: 'rows_twice',
+      sentence: `events per person of the watched events rose ${formatPercent(change)} above their usual level, as when rows are loaded twice`,
+      evidence: { eventsPerPersonChange: change, pValue },
+    };
+  }
   return {
     kind: 'events_per_person',
     sentence: `events per person of the watched events fell ${formatPercent(-change)} below their usual level`,
@@ -99,7 +116,7 @@ function brokenJourneys(input: CheckInput, days: readonly Day[]): LostData | und
   const today = measureOn(input, measure, input.day, slice);
   const usual = baselineOf(input, measure, slice, days);
   const change = rate(today) / rate(usual) - 1;
-  if (!(change <= -LOST_DATA_THRESHOLDS.minDrop)) return undefined;
+  if (!(change <= -LOST_DATA_THRESHOLDS.minChange)) return undefined;
   const { pValue } = twoProportionZ(Math.round(today.num), Math.round(today.den), Math.round(usual.num), Math.round(usual.den));
   if (!(pValue < LOST_DATA_THRESHOLDS.pValue)) return undefined;
   return {

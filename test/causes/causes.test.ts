@@ -76,6 +76,21 @@ describe('analyseCauses', () => {
     expect(ordinary.cause.segment?.value).toBe('US');
   });
 
+  it('calls an undeclared rise of every event on every platform a data delay when events per person rose with it (rows loaded twice), else behaviour', () => {
+    const volume = (platform: string, event: string) =>
+      finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform, direction: 'up', kind: 'spike' });
+    const all = ['web', 'android', 'ios'].flatMap((p) => [volume(p, 'screen_shown'), volume(p, 'pass_purchase_result')]);
+    // A campaign: 50% more people, each doing the usual things.
+    const campaign = onlyDraft(analyseCauses(buildInput({ breakage: () => ({ volume: 1.5 }) }), all));
+    expect(campaign.cause.label).toBe('behaviour');
+    // The same day loaded twice: the same people, every event counted again.
+    const twice = buildInput();
+    twice.events = twice.events.map((row) => (row.day === DAY ? { ...row, events: 2 * row.events } : row));
+    const loaded = onlyDraft(analyseCauses(twice, all));
+    expect(loaded.cause.label).toBe('data_delay');
+    expect(loaded.cause.evidence.lostData).toBe('rows_twice');
+  });
+
   it('calls an undeclared move of every event on every platform a data delay only with evidence of lost data, and freshness findings too', () => {
     const volume = (platform: string, event: string) =>
       finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform });
