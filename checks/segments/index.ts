@@ -64,8 +64,9 @@ import { optionsFor, percent } from '../options.js';
 import { anomalousSince, calendarSeverity } from '../findings.js';
 import { conversionSettled } from '../funnel.js';
 import { baselineExclusions, excerpt } from '../series.js';
-import { benjaminiHochberg, robustLocationScale, tCdf, weekdayBaseline } from '../stats/index.js';
+import { benjaminiHochberg, robustLocationScale, tCdf } from '../stats/index.js';
 import { weekday } from '../time.js';
+import { weekdayExpectation } from '../volume/baseline.js';
 import { ALL_VERSIONS, type CheckInput, type CheckModule, type Finding, type Severity, type WithPlatforms } from '../types.js';
 
 export const options = z.strictObject({
@@ -100,11 +101,6 @@ const messages = {
 const MIN_SPREAD_DAYS = 14;
 /** History days whose residuals give the spread (eight weeks, as `volume`). */
 const SPREAD_DAYS = 56;
-/** Weeks the weekday median looks back first, how many values it wants, how far back it may look, and the fewest it may rest on (as `volume`). */
-const WEEKS = 4;
-const WANTED = 3;
-const MAX_WEEKS = 16;
-const MIN_SAME_WEEKDAY = 2;
 const EXCERPT_DAYS = 28;
 const ALL_PLATFORMS = 'all';
 const WEEKDAYS = ['Sunday', 'Monday', 'Tuesday', 'Wednesday', 'Thursday', 'Friday', 'Saturday'];
@@ -257,17 +253,6 @@ function logOdds(successes: number, trials: number): number {
   return Math.log((successes + 0.5) / (trials - successes + 0.5));
 }
 
-/** The weekday median of `y` before `index` (NaN with fewer than MIN_SAME_WEEKDAY usable values). */
-function expectedAt(y: Float64Array, index: number): number {
-  let weeks = WEEKS;
-  let result = weekdayBaseline(y, index, { weeks });
-  while (result.used < WANTED && weeks < MAX_WEEKS && index - weeks * 7 > 0) {
-    weeks += WEEKS;
-    result = weekdayBaseline(y, index, { weeks });
-  }
-  return result.used >= MIN_SAME_WEEKDAY ? result.expected : Number.NaN;
-}
-
 /** What the value would be on day i at its usual share of the flow: people, or a rate beside the flow's (NaN when unknown). */
 function expectedOn(conversion: boolean, total: Daily, expectedY: Float64Array, i: number): number {
   if (!Number.isFinite(expectedY[i]!) || Number.isNaN(total.num[i]!)) return Number.NaN;
@@ -322,7 +307,7 @@ function judge(input: CheckInput, series: SeriesDef, own: Daily, total: Daily, o
   const expectedY = new Float64Array(n).fill(Number.NaN);
   const residuals: number[] = [];
   for (let i = Math.max(0, last - SPREAD_DAYS); i <= last; i++) {
-    expectedY[i] = expectedAt(base, i);
+    expectedY[i] = weekdayExpectation(base, i).expected;
     if (i < last && Number.isFinite(expectedY[i]!) && !Number.isNaN(base[i]!)) residuals.push(base[i]! - expectedY[i]!);
   }
   const center = expectedY[last]!;

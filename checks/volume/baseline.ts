@@ -29,8 +29,8 @@ const SPREAD_DAYS = 56;
 /** Fewest history log ratios for a spread (one week, as the seasonal detector). */
 const MIN_SPREAD_DAYS = 7;
 
-/** Expected value of day `index` from earlier same weekdays (NaN when fewer than two usable). */
-function expectedAt(values: Float64Array, index: number): { expected: number; used: number } {
+/** Expected value of day `index` from earlier same weekdays (NaN when fewer than two usable); `segments` uses it too. */
+export function weekdayExpectation(values: Float64Array, index: number): { expected: number; used: number } {
   let weeks = WEEKS;
   let result = weekdayBaseline(values, index, { weeks });
   while (result.used < WANTED && weeks < MAX_WEEKS && index - weeks * 7 > 0) {
@@ -72,7 +72,7 @@ export function expectation(values: Float64Array, offset: number): Expectation {
   const ratios: number[] = [];
   let used = 0;
   for (let i = Math.max(0, n - 1 - SPREAD_DAYS); i < n; i++) {
-    const own = expectedAt(values, i);
+    const own = weekdayExpectation(values, i);
     expected[i] = own.expected;
     if (i === n - 1) used = own.used;
     else if (i >= n - 1 - SPREAD_DAYS && Number.isFinite(own.expected) && !Number.isNaN(values[i]!)) {
