@@ -4,6 +4,11 @@
  * from configuration (schema, table, column names) pass through `quoteIdent`
  * exactly once, here.
  */
+import type pg from 'pg';
+
+/** A pool or a client inside a transaction. */
+export type Db = pg.Pool | pg.ClientBase;
+
 export interface Query {
   text: string;
   values: unknown[];

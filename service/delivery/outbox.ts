@@ -11,8 +11,7 @@
  * are on the sender's clock (injected in tests), as they are per message.
  */
 import type pg from 'pg';
-import { quoteIdent } from '../db/sql.js';
-import type { Db } from '../incidents/store.js';
+import { quoteIdent, type Db } from '../db/sql.js';
 import type { IncidentEvent } from '../incidents/types.js';
 import type { ChatPayload } from './chat.js';
 

@@ -7,8 +7,7 @@
  * hides values everywhere.
  */
 import type { Day, Finding } from '../../checks/types.js';
-import { quoteIdent } from '../db/sql.js';
-import type { Db } from '../incidents/store.js';
+import { quoteIdent, type Db } from '../db/sql.js';
 import { LOW_CARDINALITY } from '../warehouse/mapping.js';
 import { cleanText } from './text.js';
 

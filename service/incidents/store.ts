@@ -2,13 +2,9 @@
  * Reads of the incident tables, shared by the incident lifecycle, the digest,
  * the CLI and the incident pages.
  */
-import type pg from 'pg';
 import type { Day } from '../../checks/types.js';
-import { quoteIdent, type Query } from '../db/sql.js';
+import { quoteIdent, type Db, type Query } from '../db/sql.js';
 import type { Incident, Sighting } from './types.js';
-
-/** A pool or a client inside a transaction. */
-export type Db = pg.Pool | pg.ClientBase;
 
 const day = (column: string, as: string) => `to_char(${column}, 'YYYY-MM-DD') as "${as}"`;
 

@@ -7,7 +7,7 @@
  */
 import { ALL_VERSIONS, type Day, type FlowDefinition, type Finding } from '../../../checks/types.js';
 import { addDays } from '../../../checks/time.js';
-import type { Db } from '../../incidents/store.js';
+import type { Db } from '../../db/sql.js';
 import { measureOf, type FindingMeasure } from '../../../checks/causes/measures.js';
 import { splitQuery, type SplitRow } from './queries.js';
 
