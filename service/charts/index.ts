@@ -17,7 +17,7 @@
 import { renderAsync } from '@resvg/resvg-js';
 import { View, parse, type Spec } from 'vega';
 import type { Day, ExcerptPoint } from '../../checks/types.js';
-import { cleanText } from '../delivery/text.js';
+import { cleanText } from '../present/text.js';
 import { CHART_BACKGROUND, platformColour } from './colours.js';
 
 const FONT = 'DejaVu Sans, Liberation Sans, Arial, sans-serif';

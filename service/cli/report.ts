@@ -1,8 +1,8 @@
 import type { Cause } from '../../checks/causes/types.js';
 import type { Severity } from '../../checks/types.js';
 import { addDays } from '../config/definitions.js';
-import { severityLabel } from '../delivery/marks.js';
-import { causeWords } from '../delivery/present.js';
+import { severityLabel } from '../present/marks.js';
+import { causeWords } from '../present/present.js';
 import { SEVERITY_RANK, type Incident } from '../incidents/types.js';
 import { isLearningReason } from '../pipeline/judge.js';
 import type { FunnelDaySummary, StoredFinding } from '../state/summary.js';

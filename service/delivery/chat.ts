@@ -15,9 +15,9 @@ import type { IncomingWebhookSendArguments } from '@slack/webhook';
 import type { Severity } from '../../checks/types.js';
 import type { ChatFormatId } from '../config/schema.js';
 import type { Incident, IncidentEvent } from '../incidents/types.js';
-import { RESOLVED_MARK, SEVERITY_MARK, severityLabel } from './marks.js';
-import type { IncidentPresentation } from './present.js';
-import { chatText, cleanText, escapeChat, fitChat } from './text.js';
+import { RESOLVED_MARK, SEVERITY_MARK, severityLabel } from '../present/marks.js';
+import type { IncidentPresentation } from '../present/present.js';
+import { chatText, cleanText, escapeChat, fitChat } from '../present/text.js';
 
 /** The JSON body posted to the chat webhook; `text` is the one-line fallback every format carries. */
 export interface ChatPayload {

@@ -11,8 +11,8 @@ import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
 import { latestSightings, listIncidents } from '../incidents/store.js';
 import { incidentUrl, type Incident, type Sighting } from '../incidents/types.js';
-import { isFractionMetric, presentIncident, rankSymptoms, type IncidentPresentation } from './present.js';
-import { loadValuePolicy, paramKeysOf, valuesShown } from './privacy.js';
+import { isFractionMetric, presentIncident, rankSymptoms, type IncidentPresentation } from '../present/present.js';
+import { loadValuePolicy, paramKeysOf, valuesShown } from '../present/privacy.js';
 
 /** What the digest needs of the runtime. */
 export interface DigestRuntime {

@@ -9,8 +9,8 @@ import { formatCount, formatPercent } from '../../checks/messages.js';
 import { CHART_WIDTH, dailySeriesChart, weeklyConversionChart, type Chart } from '../charts/index.js';
 import type { Digest, DigestFlow, DigestIncident, Rate } from './digest-data.js';
 import { BASELINE_WEEKS } from './digest-data.js';
-import { RESOLVED_MARK, severityLabel } from './marks.js';
-import { cleanText, escapeHtml, htmlText } from './text.js';
+import { RESOLVED_MARK, severityLabel } from '../present/marks.js';
+import { cleanText, escapeHtml, htmlText } from '../present/text.js';
 
 /** Incident charts per digest, so a bad week does not make a huge message. */
 const MAX_INCIDENT_CHARTS = 6;

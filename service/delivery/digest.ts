@@ -20,7 +20,7 @@ import { quoteIdent } from '../db/sql.js';
 import type { Logger } from '../log.js';
 import { defaultWeek, loadDigests, weekStart, type Digest, type DigestRuntime } from './digest-data.js';
 import { digestCharts, htmlDocument, renderDigest, type RenderedDigest } from './digest-render.js';
-import { escapeHtml } from './text.js';
+import { escapeHtml } from '../present/text.js';
 
 export interface BuiltDigest {
   digest: Digest;

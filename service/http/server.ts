@@ -1,7 +1,7 @@
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import type { Duplex } from 'node:stream';
-import { escapeHtml } from '../delivery/text.js';
+import { escapeHtml } from '../present/text.js';
 import type { Logger } from '../log.js';
 import { metrics as processMetrics, type Metrics } from '../metrics.js';
 import { OPEN_PATHS, type PageGuard } from './auth.js';

@@ -22,8 +22,8 @@ import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
 import { CHAT_FORMATS, summaryLine } from '../delivery/chat.js';
 import { enqueueChat, withdrawPending } from '../delivery/outbox.js';
-import { presentIncident } from '../delivery/present.js';
-import { loadValuePolicy, paramKeysOf } from '../delivery/privacy.js';
+import { presentIncident } from '../present/present.js';
+import { loadValuePolicy, paramKeysOf } from '../present/privacy.js';
 import { latestSightings, loadIncidents } from './store.js';
 import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentEvent, type IncidentPolicy } from './types.js';
 

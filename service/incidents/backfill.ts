@@ -12,7 +12,7 @@ import { listIncidents } from './store.js';
 import { markAnnounced, queueIncidentMessage } from './apply.js';
 import { CHAT_FORMATS } from '../delivery/chat.js';
 import { enqueueBackfillSummary } from '../delivery/outbox.js';
-import { cleanText } from '../delivery/text.js';
+import { cleanText } from '../present/text.js';
 
 export interface BackfillAnnouncement {
   /** Incidents above note the range recorded, muted ones left out. */

@@ -8,9 +8,9 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { CHAT_FORMAT_IDS, mainSchema } from '../../service/config/schema.js';
 import { CHAT_FORMATS, slackFormat, type SlackMessage } from '../../service/delivery/chat.js';
-import { presentIncident } from '../../service/delivery/present.js';
-import { HIDE_ALL_VALUES, loadValuePolicy, type ValuePolicy } from '../../service/delivery/privacy.js';
-import { chatText, cleanText, clip, escapeChat, fitChat } from '../../service/delivery/text.js';
+import { presentIncident } from '../../service/present/present.js';
+import { HIDE_ALL_VALUES, loadValuePolicy, type ValuePolicy } from '../../service/present/privacy.js';
+import { chatText, cleanText, clip, escapeChat, fitChat } from '../../service/present/text.js';
 import { migrate } from '../../service/db/migrate.js';
 import { loadIncident } from '../../service/incidents/store.js';
 import { incidentUrl, type Incident, type IncidentEvent, type Sighting } from '../../service/incidents/types.js';

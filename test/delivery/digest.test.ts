@@ -196,7 +196,7 @@ describe('weekly digest by e-mail', () => {
     expect(typeof html).toBe('string');
     expect(mail.text).toContain('End-to-end conversion');
     expect(mail.text).toContain('Incidents opened (4)');
-    // Severities and resolutions carry the same marks as chat and pages (service/delivery/marks.ts), in both parts.
+    // Severities and resolutions carry the same marks as chat and pages (service/present/marks.ts), in both parts.
     expect(html).toMatch(/<strong style="color:#[0-9a-f]{6}">(page ▮▮▮|warn ▮▮▯|note ▮▯▯)<\/strong>/);
     expect(html).toContain('resolved ▯▯▯ 2026-11-18');
     expect(mail.text).toMatch(/^ {2}(page ▮▮▮|warn ▮▮▯|note ▮▯▯) /m);

@@ -1,6 +1,6 @@
 import { backtest, loadConfigAtRef, type BacktestResult } from '../../pipeline/backtest.js';
 import type { Runtime } from '../../runtime.js';
-import { markdownText } from '../../delivery/text.js';
+import { markdownText } from '../../present/text.js';
 import { EXIT, ExitError } from '../exit-codes.js';
 import { printOut } from '../terminal.js';
 import { dayRanges } from '../report.js';

@@ -9,10 +9,10 @@ import { formatCount, formatNumber, formatPercent } from '../../../checks/messag
 import type { ExcerptPoint, Finding } from '../../../checks/types.js';
 import { pageCharts } from '../../charts/cache.js';
 import { dailySeriesChart } from '../../charts/index.js';
-import { causeWords, formatMeasure, isFractionMetric, presentIncident, rankSymptoms, whereText, type IncidentPresentation } from '../../delivery/present.js';
-import { RESOLVED_MARK } from '../../delivery/marks.js';
-import { loadValuePolicy, paramKeysOf, valuesShown, type ValuePolicy } from '../../delivery/privacy.js';
-import { cleanText, escapeHtml, htmlText } from '../../delivery/text.js';
+import { causeWords, formatMeasure, isFractionMetric, presentIncident, rankSymptoms, whereText, type IncidentPresentation } from '../../present/present.js';
+import { RESOLVED_MARK } from '../../present/marks.js';
+import { loadValuePolicy, paramKeysOf, valuesShown, type ValuePolicy } from '../../present/privacy.js';
+import { cleanText, escapeHtml, htmlText } from '../../present/text.js';
 import { loadIncident } from '../../incidents/store.js';
 import type { Incident, Sighting } from '../../incidents/types.js';
 import type { PagesContext } from './context.js';

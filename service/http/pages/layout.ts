@@ -9,8 +9,8 @@
  * strips control and direction characters and clips its length.
  */
 import type { Severity } from '../../../checks/types.js';
-import { severityLabel } from '../../delivery/marks.js';
-import { cleanText, escapeHtml, htmlText } from '../../delivery/text.js';
+import { severityLabel } from '../../present/marks.js';
+import { cleanText, escapeHtml, htmlText } from '../../present/text.js';
 
 /** Longest client string shown in a table cell or a heading. */
 export const NAME_MAX = 120;

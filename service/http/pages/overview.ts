@@ -8,9 +8,9 @@ import { addDays } from '../../../checks/time.js';
 import type { Day } from '../../../checks/types.js';
 import { scrubDatabaseText } from '../../db/errors.js';
 import { OUTBOX_STATES, STUCK_STATES, listOutbox, outboxCounts, type OutboxMessage, type OutboxState } from '../../delivery/outbox.js';
-import { causeWords, presentIncident, whereText } from '../../delivery/present.js';
-import { loadValuePolicy, paramKeysOf } from '../../delivery/privacy.js';
-import { escapeHtml } from '../../delivery/text.js';
+import { causeWords, presentIncident, whereText } from '../../present/present.js';
+import { loadValuePolicy, paramKeysOf } from '../../present/privacy.js';
+import { escapeHtml } from '../../present/text.js';
 import { latestSightings, listIncidents } from '../../incidents/store.js';
 import { SEVERITY_RANK, type Incident } from '../../incidents/types.js';
 import {
