@@ -31,7 +31,7 @@ export interface ChatFormat<Payload extends ChatPayload = ChatPayload> {
   renderBackfill(input: BackfillInput): Payload;
 }
 
-/** The one message of a backfill judged without chat messages (incidents/backfill.ts). */
+/** The one message of a backfill judged without chat messages (delivery/backfill.ts). */
 export interface BackfillInput {
   from: string;
   to: string;

@@ -1,10 +1,11 @@
 /**
  * The incident lifecycle. Called inside the transaction that stores a judged
  * day's findings of every flow, it turns that day's incident drafts into
- * incidents (opened, ongoing, resolved) and queues their chat messages in the
- * outbox, so a finding, its incident and its message commit or roll back
- * together. The day is the unit, not the flow: a data delay holds back every
- * flow at once and is one incident and one message, listing the flows.
+ * incidents (opened, ongoing, resolved) and decides what chat is told:
+ * `delivery/announce.ts` renders and queues it in the same transaction, so a
+ * finding, its incident and its message commit or roll back together. The day
+ * is the unit, not the flow: a data delay holds back every flow at once and is
+ * one incident and one message, listing the flows.
  *
  * Everything is derived from two tables, so a rerun of a day leaves exactly
  * what the first run left: `incident_days` (one sighting per incident and
@@ -20,12 +21,8 @@ import type { IncidentDraft } from '../../checks/causes/types.js';
 import type { Day, Severity } from '../../checks/types.js';
 import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
-import { CHAT_FORMATS, summaryLine } from '../delivery/chat.js';
-import { enqueueChat, withdrawPending } from '../delivery/outbox.js';
-import { presentIncident } from '../present/present.js';
-import { loadValuePolicy, paramKeysOf } from '../present/privacy.js';
-import { latestSightings, loadIncidents } from './store.js';
-import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentEvent, type IncidentPolicy } from './types.js';
+import { loadIncidents } from './store.js';
+import { SEVERITY_RANK, type Incident, type IncidentEvent, type IncidentPolicy } from './types.js';
 
 export function incidentPolicy(main: MainConfig): IncidentPolicy {
   return {
@@ -50,8 +47,17 @@ export interface IncidentChanges {
   ongoing: string[];
   /** Incidents that resolved with this day. */
   resolved: string[];
-  /** Chat messages queued. */
-  queued: number;
+  /** Messages to queue, in order (`delivery/announce.ts`); empty when `quiet`. */
+  announce: Announcement[];
+  /** Incidents whose resolution no longer holds (a rerun saw them again): their pending "resolved" message is taken back. */
+  withdraw: string[];
+}
+
+/** One chat message decided: `incident` as it was before this announcement was recorded, so it still names the severity chat last heard. */
+export interface Announcement {
+  event: IncidentEvent;
+  incident: Incident;
+  day: Day;
 }
 
 const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
@@ -84,7 +90,7 @@ export async function applyIncidentDrafts(
   const s = quoteIdent(schema);
   // Replicas judging the same day take turns, so two cannot open the same incident twice.
   await client.query({ text: 'select pg_advisory_xact_lock(hashtext($1))', values: [`plumbline.incidents.${schema}`] });
-  const changes: IncidentChanges = { opened: [], ongoing: [], resolved: [], queued: 0 };
+  const changes: IncidentChanges = { opened: [], ongoing: [], resolved: [], announce: [], withdraw: [] };
 
   const { rows: earlier } = await client.query<{ id: string }>({
     text: `delete from ${s}.incident_days where day = $1 and flows && $2::text[] returning incident_id as id`,
@@ -153,11 +159,10 @@ export async function applyIncidentDrafts(
   }
   await refreshFromSightings(client, s, [...touched], now);
   const late = options.lateRows ? await closeAsLateData(client, s, day, [...touched].filter((id) => !seen.has(id)), now) : [];
-  const resolved = [...(await loadIncidents(client, schema, late)), ...(await settle(client, schema, flows, day, [...touched], policy, now))];
+  const resolved = [...(await loadIncidents(client, schema, late)), ...(await settle(client, schema, flows, day, [...touched], policy, now, changes.withdraw))];
   changes.resolved = resolved.map((incident) => incident.id);
   if (options.quiet) return changes;
-  changes.queued += await announceResolved(client, schema, resolved, policy, now);
-  changes.queued += await announceSeen(client, schema, [...seen], day, policy, now);
+  changes.announce.push(...announceResolved(resolved), ...(await announceSeen(client, schema, [...seen], day, policy, now)));
   return changes;
 }
 
@@ -248,9 +253,10 @@ interface SettleRow {
  * verdicts: resolved on the `resolve_after_days`-th judged day after it was
  * last seen (a day none of its flows held back: `not_ready` days do not count
  * as clean), withdrawn when a rerun left it without sightings, open or ongoing
- * otherwise. Returns the incidents that became resolved.
+ * otherwise. Returns the incidents that became resolved; adds to `withdraw`
+ * those whose resolution no longer holds.
  */
-async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
+async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date, withdraw: string[]): Promise<Incident[]> {
   const s = quoteIdent(schema);
   const { rows } = await client.query<SettleRow>({
     text: `select i.id, i.status, to_char(i.resolved_day, 'YYYY-MM-DD') as "resolvedDay", i.resolution, i.days_seen as "daysSeen",
@@ -270,7 +276,7 @@ async function settle(client: pg.ClientBase, schema: string, flows: readonly str
     else target = { status: row.daysSeen >= 2 ? 'ongoing' : 'open', resolvedDay: null, resolution: null };
     if (target.status === row.status && target.resolvedDay === row.resolvedDay && target.resolution === row.resolution) continue;
     // A resolution that no longer holds (a rerun saw it again) takes back its message if nobody has tried to send it yet.
-    if (row.resolvedDay !== null && target.resolvedDay !== row.resolvedDay) await withdrawPending(client, schema, row.id, 'resolved');
+    if (row.resolvedDay !== null && target.resolvedDay !== row.resolvedDay) withdraw.push(row.id);
     await client.query({
       text: `update ${s}.incidents set status = $2, resolved_day = $3, resolution = $4, resolved_at = case when $3::date is null then null else $5::timestamptz end, updated_at = $5
         where id = $1`,
@@ -282,13 +288,8 @@ async function settle(client: pg.ClientBase, schema: string, flows: readonly str
 }
 
 /** A resolution is announced only for incidents whose opening was: muted ones and notes come and go silently. */
-async function announceResolved(client: pg.ClientBase, schema: string, incidents: Incident[], policy: IncidentPolicy, now: Date): Promise<number> {
-  let queued = 0;
-  for (const incident of incidents) {
-    if (incident.notifiedSeverity === null) continue;
-    if (await queueIncidentMessage(client, schema, 'resolved', incident, incident.resolvedDay!, policy, now)) queued++;
-  }
-  return queued;
+function announceResolved(incidents: Incident[]): Announcement[] {
+  return incidents.filter((incident) => incident.notifiedSeverity !== null).map((incident) => ({ event: 'resolved', incident, day: incident.resolvedDay! }));
 }
 
 /**
@@ -300,15 +301,15 @@ async function announceResolved(client: pg.ClientBase, schema: string, incidents
  * `incidents.repeat_after` has passed since the last announcement (a rise
  * sooner than that is announced once the wait is over, if it holds).
  */
-async function announceSeen(client: pg.ClientBase, schema: string, ids: string[], day: Day, policy: IncidentPolicy, now: Date): Promise<number> {
-  if (ids.length === 0) return 0;
+async function announceSeen(client: pg.ClientBase, schema: string, ids: string[], day: Day, policy: IncidentPolicy, now: Date): Promise<Announcement[]> {
+  if (ids.length === 0) return [];
   const s = quoteIdent(schema);
   const { rows } = await client.query<{ id: string; days: number | null }>({
     text: `select id, notified_days_seen as days from ${s}.incidents where id = any($1)`,
     values: [ids],
   });
   const announcedDays = new Map(rows.map((row) => [row.id, row.days]));
-  let queued = 0;
+  const announce: Announcement[] = [];
   for (const incident of await loadIncidents(client, schema, ids)) {
     // A note is recorded and shown in the digest, never sent to chat: an incident speaks once a sighting reaches warn.
     if (incident.muted || incident.status === 'resolved' || incident.severity === 'note') continue;
@@ -318,10 +319,10 @@ async function announceSeen(client: pg.ClientBase, schema: string, ids: string[]
     else if (SEVERITY_RANK[incident.severity] > SEVERITY_RANK[incident.notifiedSeverity] && waited) event = 'severity_raised';
     else if (incident.causeLabel === 'data_delay' && incident.daysSeen >= 2 * (announcedDays.get(incident.id) ?? incident.daysSeen) && waited) event = 'still_held_back';
     else continue;
-    if (await queueIncidentMessage(client, schema, event, incident, day, policy, now)) queued++;
+    announce.push({ event, incident, day });
     await markAnnounced(client, schema, incident.id, now);
   }
-  return queued;
+  return announce;
 }
 
 /** Records that an incident's current severity and length were announced at `now`. */
@@ -330,20 +331,4 @@ export async function markAnnounced(client: pg.ClientBase, schema: string, id: s
     text: `update ${quoteIdent(schema)}.incidents set notified_severity = severity, notified_days_seen = days_seen, last_notified_at = $2 where id = $1`,
     values: [id, now],
   });
-}
-
-export async function queueIncidentMessage(client: pg.ClientBase, schema: string, event: IncidentEvent, incident: Incident, day: Day, policy: IncidentPolicy, now: Date): Promise<boolean> {
-  const sighting = (await latestSightings(client, schema, [incident.id])).get(incident.id);
-  const values = await loadValuePolicy(client, schema, policy.hideValues, paramKeysOf(sighting?.symptoms ?? []), incident.since, incident.lastSeenDay);
-  const presentation = presentIncident(incident, sighting, values);
-  const payload = CHAT_FORMATS[policy.chatFormat].render({
-    event,
-    incident,
-    presentation,
-    mentions: Object.fromEntries(incident.owners.map((owner) => [owner, policy.owners[owner]?.chat_mention])),
-    url: incidentUrl(policy.publicUrl, incident.id),
-    previousSeverity: incident.notifiedSeverity,
-    resolveAfterDays: policy.resolveAfterDays,
-  });
-  return await enqueueChat(client, schema, { incidentId: incident.id, event, day, payload, summary: summaryLine(event, incident, presentation) }, now);
 }

@@ -8,6 +8,7 @@ import { quoteIdent } from '../db/sql.js';
 import { rollupDay, type RollupContext, type RollupResult } from '../rollup/rollup-day.js';
 import type { DayRange } from '../warehouse/engine.js';
 import type { Runtime } from '../runtime.js';
+import { announceChanges } from '../delivery/announce.js';
 import { applyIncidentDrafts, incidentPolicy } from '../incidents/apply.js';
 import { storeJudgement } from '../state/findings.js';
 import { historyStart, loadAnomalousDays, loadHistory, sliceInput } from './history.js';
@@ -98,7 +99,7 @@ export interface JudgeTarget {
  * incidents are drawn, in one transaction: one cause seen by several flows
  * (a data delay) is one incident and one message. Live runs and backtests
  * share this code. `quiet`: incidents change, no message is queued (a
- * backfill's old days, see incidents/backfill.ts).
+ * backfill's old days, see delivery/backfill.ts).
  */
 export async function judgeDays(
   rt: Runtime,
@@ -150,7 +151,8 @@ export async function judgeDays(
       // Findings, incidents and their messages change together or not at all.
       await write(async (client) => {
         for (const judgement of judged) await storeJudgement(client, writeSchema, judgement.flow, day, judgement.verdict, judgement.reason, judgement.findings);
-        await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), options);
+        const changes = await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), options);
+        await announceChanges(client, writeSchema, changes, policy, clock(day));
       });
       return judged;
     };

@@ -1,13 +1,14 @@
 /**
  * Hand-made incident drafts in the Metro Pass scenario, and a helper that
  * judges a (flow, day) the way the daily run does: store the verdict and
- * findings, then apply the drafts, in one transaction.
+ * findings, then apply the drafts and queue what they announce, in one transaction.
  */
 import type pg from 'pg';
 import type { IncidentDraft } from '../../checks/causes/types.js';
 import type { ExcerptPoint, Finding, Severity } from '../../checks/types.js';
 import { addDays } from '../../service/config/definitions.js';
 import { quoteIdent } from '../../service/db/sql.js';
+import { announceChanges } from '../../service/delivery/announce.js';
 import { applyIncidentDrafts, type IncidentChanges } from '../../service/incidents/apply.js';
 import type { IncidentPolicy } from '../../service/incidents/types.js';
 import { storeJudgement } from '../../service/state/findings.js';
@@ -175,9 +176,10 @@ export async function judgeFlows(
       await storeJudgement(client, schema, flow, day, verdict ?? 'judged', undefined, drafts.flatMap((d) => d.symptoms));
     }
     const drafts = flows.flatMap((f) => f.drafts);
-    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day), {
-      lateRows: options.lateRows ?? false,
-    });
+    const policy = options.policy ?? POLICY;
+    const now = options.now ?? clockFor(day);
+    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, policy, now, { lateRows: options.lateRows ?? false });
+    await announceChanges(client, schema, changes, policy, now);
     await client.query('commit');
     return changes;
   } catch (error) {

@@ -2,8 +2,8 @@
  * A Metro Pass state for the page tests, built through the real code paths:
  * the example config (two flows), a migrated state schema, verdicts and
  * findings stored with `storeJudgement`, incidents opened, continued and
- * resolved with `applyIncidentDrafts` (which also queues their chat
- * messages), one message parked by the sender's own functions. Only the
+ * resolved with `applyIncidentDrafts` (their chat messages queued with
+ * `announceChanges`), one message parked by the sender's own functions. Only the
  * rollup rows behind the per-version split and two `runs` rows are written
  * directly. Every cause label appears once, and one event name is hostile.
  */
@@ -12,6 +12,7 @@ import type { Finding, Severity } from '../../checks/types.js';
 import { daysBetween } from '../../service/config/definitions.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { claimNext, markFailed } from '../../service/delivery/outbox.js';
+import { announceChanges } from '../../service/delivery/announce.js';
 import type { ServeStatus } from '../../service/http/app.js';
 import { applyIncidentDrafts, incidentPolicy } from '../../service/incidents/apply.js';
 import type { Runtime } from '../../service/runtime.js';
@@ -242,7 +243,8 @@ export async function createPagesScenario(): Promise<PagesScenario> {
       try {
         await client.query('begin');
         await storeJudgement(client, schema, flow, day, 'judged', undefined, drafts.flatMap((d) => d.symptoms));
-        await applyIncidentDrafts(client, schema, [flow], day, drafts, policy, clockFor(day));
+        const changes = await applyIncidentDrafts(client, schema, [flow], day, drafts, policy, clockFor(day));
+        await announceChanges(client, schema, changes, policy, clockFor(day));
         await client.query('commit');
       } catch (error) {
         await client.query('rollback');

@@ -1,6 +1,6 @@
 import { daysBetween } from '../../config/definitions.js';
 import { incidentPolicy } from '../../incidents/apply.js';
-import { announceBackfill } from '../../incidents/backfill.js';
+import { announceBackfill } from '../../delivery/backfill.js';
 import { judgeDays, replayClock, rollupRange, runDay } from '../../pipeline/run-day.js';
 import { Claim } from '../../runner/claim.js';
 import { lockName } from '../../runner/queries.js';
@@ -35,7 +35,7 @@ export interface RangeOptions {
 /**
  * Rolls up every day of the range (in parallel), then judges them in order so
  * baselines build up. Days older than the catch-up window are judged without
- * chat messages and summed up in one (incidents/backfill.ts), unless `announce`;
+ * chat messages and summed up in one (delivery/backfill.ts), unless `announce`;
  * the days of the window speak as the daily pass would.
  */
 export async function runRange(rt: Runtime, from: string, to: string, options: RangeOptions): Promise<void> {

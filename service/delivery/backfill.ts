@@ -7,11 +7,12 @@
  * channel reads: the summary, then what is open.
  */
 import type pg from 'pg';
-import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentPolicy } from './types.js';
-import { listIncidents } from './store.js';
-import { markAnnounced, queueIncidentMessage } from './apply.js';
-import { CHAT_FORMATS } from '../delivery/chat.js';
-import { enqueueBackfillSummary } from '../delivery/outbox.js';
+import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentPolicy } from '../incidents/types.js';
+import { listIncidents } from '../incidents/store.js';
+import { markAnnounced } from '../incidents/apply.js';
+import { queueIncidentMessage } from './announce.js';
+import { CHAT_FORMATS } from './chat.js';
+import { enqueueBackfillSummary } from './outbox.js';
 import { cleanText } from '../present/text.js';
 
 export interface BackfillAnnouncement {
