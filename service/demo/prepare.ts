@@ -9,8 +9,8 @@ import { addDays } from '../config/definitions.js';
 import { quoteIdent, quoteQualified } from '../db/sql.js';
 import { migrate } from '../db/migrate.js';
 import type { Runtime } from '../runtime.js';
-import { runRange } from '../cli/commands/run.js';
-import { Progress } from '../cli/progress.js';
+import { runRange } from '../pipeline/run-range.js';
+import { Progress } from '../progress.js';
 import { copyEventsFromPostgres } from './clickhouse.js';
 import { DEMO_FROM, DEMO_TO, generateScenario, writeGroundTruth } from './scenario.js';
 

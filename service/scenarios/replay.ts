@@ -19,7 +19,7 @@ import { quoteIdent } from '../db/sql.js';
 import { latestSightings, listIncidents } from '../incidents/store.js';
 import { createLogger } from '../log.js';
 import { createMetrics } from '../metrics.js';
-import { runRange } from '../cli/commands/run.js';
+import { runRange } from '../pipeline/run-range.js';
 import { judgeDays, rollupRange } from '../pipeline/run-day.js';
 import { Runner } from '../runner/runner.js';
 import { openRuntime, type Runtime } from '../runtime.js';

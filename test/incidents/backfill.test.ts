@@ -9,7 +9,7 @@
  * day of its catch-up pass.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { runRange } from '../../service/cli/commands/run.js';
+import { runRange } from '../../service/pipeline/run-range.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { listIncidents } from '../../service/incidents/store.js';
 import type { Incident } from '../../service/incidents/types.js';
