@@ -4,12 +4,11 @@
  * with one cause and the list of its symptoms. Pure: the service turns drafts
  * into incidents and messages.
  */
+import { SEVERITY_RANK } from '../severity.js';
 import type { CheckInput, Finding, Severity } from '../types.js';
 import { attribute, type Attribution } from './attribute.js';
 import { baselineDays, baselineOf, measureOn, rate } from './measures.js';
 import type { Cause, IncidentDraft } from './types.js';
-
-const SEVERITY_RANK: Record<Severity, number> = { note: 0, warn: 1, page: 2 };
 
 /**
  * The step whose conversion fell (or rose) the most against its usual level on

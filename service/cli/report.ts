@@ -1,13 +1,14 @@
 import type { Cause } from '../../checks/causes/types.js';
+import { SEVERITIES, SEVERITY_RANK } from '../../checks/severity.js';
 import type { Severity } from '../../checks/types.js';
 import { addDays } from '../config/definitions.js';
 import { severityLabel } from '../present/marks.js';
 import { causeWords } from '../present/present.js';
-import { SEVERITY_RANK, type Incident } from '../incidents/types.js';
+import type { Incident } from '../incidents/types.js';
 import { isLearningReason } from '../pipeline/judge.js';
 import type { FunnelDaySummary, StoredFinding } from '../state/summary.js';
 
-const SEVERITY_ORDER: Severity[] = ['page', 'warn', 'note'];
+const SEVERITY_ORDER: Severity[] = [...SEVERITIES].reverse();
 const WEEKDAY = ['Sun', 'Mon', 'Tue', 'Wed', 'Thu', 'Fri', 'Sat'];
 
 export interface JudgedDay {

@@ -7,7 +7,8 @@
  * channel reads: the summary, then what is open.
  */
 import type pg from 'pg';
-import { SEVERITY_RANK, incidentUrl, type Incident, type IncidentPolicy } from '../incidents/types.js';
+import { SEVERITY_RANK } from '../../checks/severity.js';
+import { incidentUrl, type Incident, type IncidentPolicy } from '../incidents/types.js';
 import { listIncidents } from '../incidents/store.js';
 import { markAnnounced } from '../incidents/apply.js';
 import { queueIncidentMessage } from './announce.js';

@@ -18,11 +18,12 @@ import { createHash } from 'node:crypto';
 import type pg from 'pg';
 import { mergeDrafts } from '../../checks/causes/index.js';
 import type { IncidentDraft } from '../../checks/causes/types.js';
-import type { Day, Severity } from '../../checks/types.js';
+import { SEVERITIES, SEVERITY_RANK } from '../../checks/severity.js';
+import type { Day } from '../../checks/types.js';
 import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
 import { loadIncidents } from './store.js';
-import { SEVERITY_RANK, type Incident, type IncidentEvent, type IncidentPolicy } from './types.js';
+import type { Incident, IncidentEvent, IncidentPolicy } from './types.js';
 
 export function incidentPolicy(main: MainConfig): IncidentPolicy {
   return {
@@ -59,8 +60,6 @@ export interface Announcement {
   incident: Incident;
   day: Day;
 }
-
-const SEVERITIES: Severity[] = ['note', 'warn', 'page'];
 
 /**
  * Applies the incident drafts of one judged day of `flows` (every flow judged
@@ -198,7 +197,7 @@ async function refreshFromSightings(client: pg.ClientBase, s: string, ids: strin
     text: `with t as (select unnest($1::text[]) as id),
       agg as (
         select d.incident_id, count(*)::int as n, max(d.day) as last_day, min(d.since) as since,
-          max(case d.severity when 'page' then 3 when 'warn' then 2 else 1 end) as rank
+          max(array_position($3::text[], d.severity)) as rank
         from ${s}.incident_days d join t on t.id = d.incident_id group by d.incident_id),
       latest as (
         select distinct on (d.incident_id) d.incident_id, d.title, d.muted

@@ -75,8 +75,6 @@ export interface IncidentPolicy {
   chatFormat: ChatFormatId;
 }
 
-export const SEVERITY_RANK: Record<Severity, number> = { note: 1, warn: 2, page: 3 };
-
 /** The page of an incident. */
 export function incidentUrl(publicUrl: string, id: string): string {
   return `${publicUrl.replace(/\/+$/, '')}/incidents/${encodeURIComponent(id)}`;

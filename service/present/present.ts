@@ -6,7 +6,8 @@
 import type { CauseLabel } from '../../checks/causes/types.js';
 import type { Finding } from '../../checks/types.js';
 import { formatNumber, formatPercent } from '../../checks/messages.js';
-import { SEVERITY_RANK, type Incident, type Sighting } from '../incidents/types.js';
+import { SEVERITY_RANK } from '../../checks/severity.js';
+import type { Incident, Sighting } from '../incidents/types.js';
 import { showValue, valuesShown, type ValuePolicy } from './privacy.js';
 
 export interface IncidentPresentation {

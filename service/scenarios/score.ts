@@ -14,6 +14,7 @@
  * - an incident that holds back several flows (a data delay) is read once
  *   for each of them, as each flow's owner reads it.
  */
+import { SEVERITY_RANK } from '../../checks/severity.js';
 import { addDays } from '../../checks/time.js';
 import { INCIDENT_TYPES, type IncidentType, type Truth } from './catalogue.js';
 import type { ObservedIncident, ScenarioRun } from './replay.js';
@@ -135,8 +136,6 @@ function compareRanks(a: Array<number | string>, b: Array<number | string>): num
   }
   return 0;
 }
-
-const SEVERITY_RANK = { page: 3, warn: 2, note: 1 } as const;
 
 /** The incident the analyst meets first: earliest opened, then the loudest. */
 function firstIncident(incidents: readonly ObservedIncident[]): ObservedIncident {

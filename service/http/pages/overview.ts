@@ -4,6 +4,7 @@
  * and the chat messages waiting or parked (the delivery status page).
  */
 import { formatCount } from '../../../checks/messages.js';
+import { SEVERITY_RANK } from '../../../checks/severity.js';
 import { addDays } from '../../../checks/time.js';
 import type { Day } from '../../../checks/types.js';
 import { scrubDatabaseText } from '../../db/errors.js';
@@ -12,7 +13,7 @@ import { causeWords, presentIncident, whereText } from '../../present/present.js
 import { loadValuePolicy, paramKeysOf } from '../../present/privacy.js';
 import { escapeHtml } from '../../present/text.js';
 import { latestSightings, listIncidents } from '../../incidents/store.js';
-import { SEVERITY_RANK, type Incident } from '../../incidents/types.js';
+import type { Incident } from '../../incidents/types.js';
 import {
   clientText,
   dataTable,
