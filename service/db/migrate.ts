@@ -3,6 +3,7 @@ import { join } from 'node:path';
 import type pg from 'pg';
 import { projectPath } from '../paths.js';
 import { quoteIdent } from './sql.js';
+import { withTransaction } from './tx.js';
 
 const MIGRATIONS_DIR = projectPath('service', 'db', 'migrations');
 
@@ -26,18 +27,7 @@ export function listMigrations(dir = MIGRATIONS_DIR): Migration[] {
  * a failure leaves the schema as it was. Returns the versions applied.
  */
 export async function migrate(pool: pg.Pool, schema: string, migrations = listMigrations()): Promise<number[]> {
-  const client = await pool.connect();
-  try {
-    await client.query('begin');
-    const done = await applyMigrations(client, schema, migrations);
-    await client.query('commit');
-    return done;
-  } catch (error) {
-    await client.query('rollback');
-    throw error;
-  } finally {
-    client.release();
-  }
+  return await withTransaction(pool, (client) => applyMigrations(client, schema, migrations));
 }
 
 /** The migrations, inside the caller's transaction (a backtest's throw-away schema lives and dies in one). */

@@ -5,6 +5,7 @@ import type pg from 'pg';
 import { addDays } from '../config/definitions.js';
 import type { FlowConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
+import { withTransaction } from '../db/tx.js';
 import { rollupDay, type RollupContext, type RollupResult } from '../rollup/rollup-day.js';
 import type { DayRange } from '../warehouse/engine.js';
 import type { Runtime } from '../runtime.js';
@@ -116,17 +117,7 @@ export async function judgeDays(
   const reader = target?.client ?? rt.state;
   const write = async (work: (client: pg.ClientBase) => Promise<void>) => {
     if (target?.client) return work(target.client);
-    const client = await rt.state.connect();
-    try {
-      await client.query('begin');
-      await work(client);
-      await client.query('commit');
-    } catch (error) {
-      await client.query('rollback');
-      throw error;
-    } finally {
-      client.release();
-    }
+    return withTransaction(rt.state, work);
   };
   const loadFlow = async (config: FlowConfig) => {
     const flow = rt.flows.find((f) => f.id === config.flow)!;

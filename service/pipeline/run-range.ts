@@ -3,6 +3,7 @@
  * --from/--to`, the demo and the evaluation's install all come through here.
  */
 import { daysBetween } from '../config/definitions.js';
+import { withTransaction } from '../db/tx.js';
 import { announceBackfill } from '../delivery/backfill.js';
 import { incidentPolicy } from '../incidents/apply.js';
 import { Progress } from '../progress.js';
@@ -45,17 +46,7 @@ export async function runRange(rt: Runtime, from: string, to: string, options: R
 }
 
 async function summariseBackfill(rt: Runtime, range: { from: string; to: string }, now: Date): Promise<void> {
-  const client = await rt.state.connect();
-  try {
-    await client.query('begin');
-    const flows = rt.flows.map((flow) => flow.id);
-    const result = await announceBackfill(client, rt.stateSchema, flows, range, incidentPolicy(rt.config.main), now);
-    await client.query('commit');
-    rt.log.info({ ...range, ...result }, 'backfill judged without chat messages; its summary is queued');
-  } catch (error) {
-    await client.query('rollback');
-    throw error;
-  } finally {
-    client.release();
-  }
+  const flows = rt.flows.map((flow) => flow.id);
+  const result = await withTransaction(rt.state, (client) => announceBackfill(client, rt.stateSchema, flows, range, incidentPolicy(rt.config.main), now));
+  rt.log.info({ ...range, ...result }, 'backfill judged without chat messages; its summary is queued');
 }

@@ -1,5 +1,6 @@
 import type pg from 'pg';
 import type { FlowDefinition, FunnelDayRow, StepDayRow } from '../../checks/types.js';
+import { withTransaction } from '../db/tx.js';
 import {
   deleteDay,
   deleteFlowDay,
@@ -88,9 +89,7 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   const funnelRows = ctx.flows.flatMap((flow, index) => unpivotFunnel(flow.id, flows[index]!.funnel));
   const stepRows: Omit<StepDayRow, 'day'>[] = ctx.flows.flatMap((flow, index) => flows[index]!.steps.map((row) => ({ flow: flow.id, ...row })));
 
-  const client = await ctx.state.connect();
-  try {
-    await client.query('begin');
+  await withTransaction(ctx.state, async (client) => {
     await client.query(deleteDay(ctx.stateSchema, 'event_days', day));
     await client.query(insertEventDays(ctx.stateSchema, day, counts));
     await client.query(deleteDay(ctx.stateSchema, 'param_days', day));
@@ -103,13 +102,7 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
     await client.query(insertStepDays(ctx.stateSchema, day, stepRows));
     await client.query(upsertDayStatus(ctx.stateSchema, day, statusRows));
     await client.query(deleteStatusExcept(ctx.stateSchema, day, statusRows.map((row) => row.platform)));
-    await client.query('commit');
-  } catch (error) {
-    await client.query('rollback');
-    throw error;
-  } finally {
-    client.release();
-  }
+  });
   return {
     day,
     events: statusRows.reduce((sum, row) => sum + row.events, 0),

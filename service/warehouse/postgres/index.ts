@@ -5,6 +5,7 @@
 import type pg from 'pg';
 import type { FlowDefinition } from '../../../checks/types.js';
 import type { Query } from '../../db/sql.js';
+import { withReadOnly } from '../../db/tx.js';
 import type { DayRange, Warehouse } from '../engine.js';
 import type { WarehouseMapping } from '../mapping.js';
 import { toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
@@ -54,23 +55,15 @@ export class PostgresWarehouse implements Warehouse {
 
   /** Runs one statement read only, with the rollup's session settings, on a connection of its own. */
   async read<Row extends pg.QueryResultRow>(query: Query): Promise<Row[]> {
-    const client = await this.pool.connect();
-    try {
-      await client.query('begin read only');
+    return await withReadOnly(this.pool, async (client) => {
       // JIT compilation of these wide expressions costs seconds and saves nothing on one pass over a day.
       await client.query({
         text: `select set_config('work_mem', $1, true), set_config('jit', 'off', true), set_config('statement_timeout', $2, true)`,
         values: [this.settings.workMem, `${this.settings.statementTimeoutSeconds}s`],
       });
       const { rows } = await client.query<Row>(query);
-      await client.query('commit');
       return rows;
-    } catch (error) {
-      await client.query('rollback').catch(() => undefined);
-      throw error;
-    } finally {
-      client.release();
-    }
+    });
   }
 
   async close(): Promise<void> {
