@@ -272,6 +272,22 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
       },
     };
   }
+  // Rows loaded twice (freshness's mark, on any platform: a loader runs for every platform at once) raise events per
+  // person wherever they cross their own thresholds; those rises are the same load, not a tracking change of one platform.
+  const twice = finding.metric.includes('per_person') && finding.direction === 'up' ? dayFindings.find((f) => f.check === 'freshness' && f.kind === 'duplicates') : undefined;
+  if (twice) {
+    return {
+      groupKey: 'data_delay',
+      cause: {
+        label: 'data_delay',
+        confidence: 0.8,
+        sentence: `the data is late or incomplete: ${twice.message}`,
+        platform: twice.platform,
+        version: null,
+        evidence: { check: 'freshness', kind: twice.kind, ...(twice.evidence ?? {}) },
+      },
+    };
+  }
   // Every watched event on every platform moving one way on an undeclared day is the pipeline, not people.
   if (finding.check !== 'volume' || input.calendar.some((entry) => entry.day === input.day)) return undefined;
   const moved = new Set(

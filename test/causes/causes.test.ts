@@ -91,6 +91,21 @@ describe('analyseCauses', () => {
     expect(loaded.cause.evidence.lostData).toBe('rows_twice');
   });
 
+  it('joins a rise of events per person to rows loaded twice that day, on any platform, instead of calling it a platform or behaviour', () => {
+    // The freshness check saw ios send about twice the events per person on most watched events; web's and android's
+    // per-person series rose past their own thresholds the same day (web has no versions: the platform test would take it).
+    const twice = buildInput();
+    twice.events = twice.events.map((row) => (row.day === DAY ? { ...row, events: 2 * row.events } : row));
+    const duplicates = finding({ check: 'freshness', metric: 'events_per_person', subject: { type: 'day', name: DAY }, platform: 'ios', kind: 'duplicates', direction: 'up', severity: 'warn' });
+    const perPerson = (platform: string, event: string) =>
+      finding({ check: 'volume', metric: 'events_per_person', subject: { type: 'event', name: event, event }, platform, direction: 'up', kind: 'spike' });
+    const draft = onlyDraft(analyseCauses(twice, [duplicates, perPerson('web', 'screen_shown'), perPerson('android', 'pass_purchase_result')]));
+    expect(draft.cause.label).toBe('data_delay');
+    expect(draft.symptoms).toHaveLength(3);
+    // Without the loader's mark, web's rise alone stays a tracking change of web.
+    expect(onlyDraft(analyseCauses(twice, [perPerson('web', 'screen_shown')])).cause.label).toBe('platform');
+  });
+
   it('calls an undeclared move of every event on every platform a data delay only with evidence of lost data, and freshness findings too', () => {
     const volume = (platform: string, event: string) =>
       finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: event, event }, platform });
