@@ -21,6 +21,7 @@ import {
   isCount,
   dimensionsIn,
   firstSeen,
+  localisedStep,
   measureOn,
   rate,
   versionsOn,
@@ -378,6 +379,16 @@ function release(finding: Finding, input: CheckInput, dayFindings: readonly Find
   if (!measure) return undefined;
   const versions = versionsOn(input, platform, input.day);
   if (versions.length < 2) return undefined;
+  const named = versionOf(measure, platform, versions, input);
+  if (named || measure.kind !== 'flow_conversion') return named;
+  // Over the whole flow, a version's broken step is diluted by every other step's noise on every version: the
+  // end-to-end move is tested again where the platform's funnel moved most, as a finding about that step would be.
+  const step = localisedStep(input, platform, finding.direction);
+  return step === undefined ? undefined : versionOf({ kind: 'step_conversion', step, label: `${input.flow.steps[step - 1]!.name} -> ${input.flow.steps[step]!.name} conversion` }, platform, versions, input);
+}
+
+/** The app version of `platform` that explains the day's move of `measure` (the release test), if one does. */
+function versionOf(measure: Measure, platform: string, versions: readonly string[], input: CheckInput): Attribution | undefined {
   const byVersion = new Map(versions.map((version) => [version, measureOn(input, measure, input.day, { platform, version, dimension: '', value: '' })]));
   const days = baselineDays(input);
   const baseline = baselineOf(input, measure, all(platform), days);

@@ -33,6 +33,19 @@ describe('analyseCauses', () => {
     expect(draft.fingerprint).toBe('monthly_pass|release|version|android|7.4.0');
   });
 
+  it('tests an end-to-end move for a release at the step where the funnel moved, so it joins the release incident of the step', () => {
+    // android 7.4.0 loses half its riders; the done step also dips 15% on every android version that day, so over the
+    // whole flow the other version carries too much of the change to single one out.
+    const input = buildInput({
+      breakage: ({ platform, version }) => (platform === 'android' ? { done: 0.85, ...(version === '7.4.0' ? { rider: 0.5 } : {}) } : {}),
+    });
+    const completion = finding({ check: 'conversion', metric: 'end_to_end_conversion', subject: { type: 'flow', name: FLOW.id }, platform: null });
+    const draft = onlyDraft(analyseCauses(input, [completion, riderConversion('android')]));
+    expect(draft.cause.label).toBe('release');
+    expect(draft.cause.version).toBe('7.4.0');
+    expect(draft.symptoms).toHaveLength(2);
+  });
+
   it('does not blame a version when every version moved alike: one platform', () => {
     const input = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { rider: 0.5 } : {}) });
     const draft = onlyDraft(analyseCauses(input, [riderConversion('web')]));
