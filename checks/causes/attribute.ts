@@ -10,7 +10,7 @@ import { rateComparison } from '../stats/rate-comparison.js';
 import { twoProportionZ } from '../stats/two-proportion-z.js';
 import { weekday } from '../time.js';
 import { ALL_VERSIONS, type CheckInput, type Day, type Finding } from '../types.js';
-import { lostData } from './lost-data.js';
+import { LOST_DATA_THRESHOLDS, lostData } from './lost-data.js';
 import type { Cause } from './types.js';
 import {
   acrossSlices,
@@ -289,6 +289,24 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
       },
     };
   }
+  // One event's count per person rising on every platform at once, with the watched events' per-person counts up
+  // with it (lost-data.ts), is rows loaded twice: people do not send every event twice, and no one platform or
+  // version did it. A per-person rise on some platforms only stays theirs (a tracking change there).
+  const rose = finding.metric.includes('per_person') && finding.direction === 'up' && finding.subject.type === 'event' && perPersonRoseEverywhere(input, finding.subject.event ?? finding.subject.name);
+  const loadedTwice = rose ? lostData(input, 'up') : undefined;
+  if (loadedTwice) {
+    return {
+      groupKey: 'data_delay',
+      cause: {
+        label: 'data_delay',
+        confidence: 0.7,
+        sentence: `${finding.subject.name} events per person rose on every platform on ${input.day}, and ${loadedTwice.sentence}: the pipeline, not the people`,
+        platform: null,
+        version: null,
+        evidence: { lostData: loadedTwice.kind, ...loadedTwice.evidence },
+      },
+    };
+  }
   // Every watched event on every platform moving one way on an undeclared day is the pipeline, not people.
   if (finding.check !== 'volume' || input.calendar.some((entry) => entry.day === input.day)) return undefined;
   const moved = new Set(
@@ -327,6 +345,13 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
       evidence: { movedSeries: moved.size, watchedSeries: expected, lostData: lost.kind, ...lost.evidence },
     },
   };
+}
+
+/** Whether an event's count per person rose by at least lost-data's least change on every platform of the flow. */
+function perPersonRoseEverywhere(input: CheckInput, event: string): boolean {
+  const measure: Measure = { kind: 'events_per_person', event, label: '' };
+  const days = baselineDays(input);
+  return input.flow.platforms.length > 1 && input.flow.platforms.every((p) => relativeChange(input, measure, all(p), days) >= LOST_DATA_THRESHOLDS.minChange);
 }
 
 /**

@@ -115,8 +115,15 @@ describe('analyseCauses', () => {
     const draft = onlyDraft(analyseCauses(twice, [duplicates, perPerson('web', 'screen_shown'), perPerson('android', 'pass_purchase_result')]));
     expect(draft.cause.label).toBe('data_delay');
     expect(draft.symptoms).toHaveLength(3);
-    // Without the loader's mark, web's rise alone stays a tracking change of web.
-    expect(onlyDraft(analyseCauses(twice, [perPerson('web', 'screen_shown')])).cause.label).toBe('platform');
+    // Without the loader's mark, one event counted twice on every platform is still that load (every platform's and the
+    // watched events' counts per person rose): never behaviour.
+    const alone = onlyDraft(analyseCauses(twice, [perPerson('web', 'screen_shown')]));
+    expect(alone.cause.label).toBe('data_delay');
+    expect(alone.cause.evidence.lostData).toBe('rows_twice');
+    // web alone sending its events twice is a tracking change of web.
+    const webTwice = buildInput();
+    webTwice.events = webTwice.events.map((row) => (row.day === DAY && row.platform === 'web' ? { ...row, events: 2 * row.events } : row));
+    expect(onlyDraft(analyseCauses(webTwice, [perPerson('web', 'screen_shown')])).cause.label).toBe('platform');
   });
 
   it('calls an undeclared move of every event on every platform a data delay only with evidence of lost data, and freshness findings too', () => {
