@@ -10,7 +10,7 @@ import { rateComparison } from '../stats/rate-comparison.js';
 import { twoProportionZ } from '../stats/two-proportion-z.js';
 import { weekday } from '../time.js';
 import { ALL_VERSIONS, type CheckInput, type Day, type Finding } from '../types.js';
-import { lostData } from './lost-data.js';
+import { LOST_DATA_THRESHOLDS, lostData } from './lost-data.js';
 import type { Cause } from './types.js';
 import {
   acrossSlices,
@@ -21,6 +21,7 @@ import {
   isCount,
   dimensionsIn,
   firstSeen,
+  localisedStep,
   measureOn,
   rate,
   versionsOn,
@@ -272,6 +273,40 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
       },
     };
   }
+  // Rows loaded twice (freshness's mark, on any platform: a loader runs for every platform at once) raise events per
+  // person wherever they cross their own thresholds; those rises are the same load, not a tracking change of one platform.
+  const twice = finding.metric.includes('per_person') && finding.direction === 'up' ? dayFindings.find((f) => f.check === 'freshness' && f.kind === 'duplicates') : undefined;
+  if (twice) {
+    return {
+      groupKey: 'data_delay',
+      cause: {
+        label: 'data_delay',
+        confidence: 0.8,
+        sentence: `the data is late or incomplete: ${twice.message}`,
+        platform: twice.platform,
+        version: null,
+        evidence: { check: 'freshness', kind: twice.kind, ...(twice.evidence ?? {}) },
+      },
+    };
+  }
+  // One event's count per person rising on every platform at once, with the watched events' per-person counts up
+  // with it (lost-data.ts), is rows loaded twice: people do not send every event twice, and no one platform or
+  // version did it. A per-person rise on some platforms only stays theirs (a tracking change there).
+  const rose = finding.metric.includes('per_person') && finding.direction === 'up' && finding.subject.type === 'event' && perPersonRoseEverywhere(input, finding.subject.event ?? finding.subject.name);
+  const loadedTwice = rose ? lostData(input, 'up') : undefined;
+  if (loadedTwice) {
+    return {
+      groupKey: 'data_delay',
+      cause: {
+        label: 'data_delay',
+        confidence: 0.7,
+        sentence: `${finding.subject.name} events per person rose on every platform on ${input.day}, and ${loadedTwice.sentence}: the pipeline, not the people`,
+        platform: null,
+        version: null,
+        evidence: { lostData: loadedTwice.kind, ...loadedTwice.evidence },
+      },
+    };
+  }
   // Every watched event on every platform moving one way on an undeclared day is the pipeline, not people.
   if (finding.check !== 'volume' || input.calendar.some((entry) => entry.day === input.day)) return undefined;
   const moved = new Set(
@@ -310,6 +345,13 @@ function dataDelay(finding: Finding, input: CheckInput, dayFindings: readonly Fi
       evidence: { movedSeries: moved.size, watchedSeries: expected, lostData: lost.kind, ...lost.evidence },
     },
   };
+}
+
+/** Whether an event's count per person rose by at least lost-data's least change on every platform of the flow. */
+function perPersonRoseEverywhere(input: CheckInput, event: string): boolean {
+  const measure: Measure = { kind: 'events_per_person', event, label: '' };
+  const days = baselineDays(input);
+  return input.flow.platforms.length > 1 && input.flow.platforms.every((p) => relativeChange(input, measure, all(p), days) >= LOST_DATA_THRESHOLDS.minChange);
 }
 
 /**
@@ -362,6 +404,16 @@ function release(finding: Finding, input: CheckInput, dayFindings: readonly Find
   if (!measure) return undefined;
   const versions = versionsOn(input, platform, input.day);
   if (versions.length < 2) return undefined;
+  const named = versionOf(measure, platform, versions, input);
+  if (named || measure.kind !== 'flow_conversion') return named;
+  // Over the whole flow, a version's broken step is diluted by every other step's noise on every version: the
+  // end-to-end move is tested again where the platform's funnel moved most, as a finding about that step would be.
+  const step = localisedStep(input, platform, finding.direction);
+  return step === undefined ? undefined : versionOf({ kind: 'step_conversion', step, label: `${input.flow.steps[step - 1]!.name} -> ${input.flow.steps[step]!.name} conversion` }, platform, versions, input);
+}
+
+/** The app version of `platform` that explains the day's move of `measure` (the release test), if one does. */
+function versionOf(measure: Measure, platform: string, versions: readonly string[], input: CheckInput): Attribution | undefined {
   const byVersion = new Map(versions.map((version) => [version, measureOn(input, measure, input.day, { platform, version, dimension: '', value: '' })]));
   const days = baselineDays(input);
   const baseline = baselineOf(input, measure, all(platform), days);

@@ -7,27 +7,8 @@
 import { SEVERITY_RANK } from '../severity.js';
 import type { CheckInput, Finding, Severity } from '../types.js';
 import { attribute, type Attribution } from './attribute.js';
-import { baselineDays, baselineOf, measureOn, rate } from './measures.js';
+import { localisedStep } from './measures.js';
 import type { Cause, IncidentDraft } from './types.js';
-
-/**
- * The step whose conversion fell (or rose) the most against its usual level on
- * the day: where an end-to-end move happened. Undefined when no step moved.
- */
-function localisedStep(input: CheckInput, platform: string | null, direction: Finding['direction']): string | undefined {
-  const days = baselineDays(input);
-  const slice = { platform, version: '*', dimension: '', value: '' };
-  let best: { step: string; change: number } | undefined;
-  for (let step = 1; step < input.flow.steps.length; step++) {
-    const measure = { kind: 'step_conversion' as const, step, label: '' };
-    const today = rate(measureOn(input, measure, input.day, slice));
-    const usual = rate(baselineOf(input, measure, slice, days));
-    if (!(usual > 0) || !Number.isFinite(today)) continue;
-    const change = (today / usual - 1) * (direction === 'up' ? -1 : 1);
-    if (!best || change < best.change) best = { step: input.flow.steps[step]!.name, change };
-  }
-  return best && best.change < 0 ? best.step : undefined;
-}
 
 /**
  * The incident's subject: the earliest step of the flow among its symptoms
@@ -36,10 +17,12 @@ function localisedStep(input: CheckInput, platform: string | null, direction: Fi
  * the flow. Stable across the days of an incident even as symptoms come and
  * go, which keeps its fingerprint stable.
  */
+const stepName = (input: CheckInput, step: number | undefined) => (step === undefined ? undefined : input.flow.steps[step]!.name);
+
 function subjectOf(symptoms: readonly Finding[], input: CheckInput, platform: string | null): string {
   const stepOrder = (name: string | undefined) => input.flow.steps.findIndex((step) => step.name === name);
   const steps = symptoms
-    .map((f) => (f.subject.type === 'step' ? (f.subject.step ?? f.subject.name) : f.subject.type === 'flow' ? localisedStep(input, platform, f.direction) : undefined))
+    .map((f) => (f.subject.type === 'step' ? (f.subject.step ?? f.subject.name) : f.subject.type === 'flow' ? stepName(input, localisedStep(input, platform, f.direction)) : undefined))
     .filter((name): name is string => name !== undefined)
     .sort((a, b) => stepOrder(a) - stepOrder(b));
   if (steps.length > 0) return steps[0]!;

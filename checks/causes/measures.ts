@@ -239,3 +239,23 @@ export function firstSeen(input: CheckInput, platform: string, version: string):
   }
   return first;
 }
+
+/**
+ * The step (its index) whose conversion fell (or rose) the most against its
+ * usual level on the judged day, on a platform or every platform: where an
+ * end-to-end move happened. Undefined when no step moved that way.
+ */
+export function localisedStep(input: CheckInput, platform: string | null, direction: Finding['direction']): number | undefined {
+  const days = baselineDays(input);
+  const slice = { platform, version: ALL_VERSIONS, dimension: '', value: '' };
+  let best: { step: number; change: number } | undefined;
+  for (let step = 1; step < input.flow.steps.length; step++) {
+    const measure = { kind: 'step_conversion' as const, step, label: '' };
+    const today = rate(measureOn(input, measure, input.day, slice));
+    const usual = rate(baselineOf(input, measure, slice, days));
+    if (!(usual > 0) || !Number.isFinite(today)) continue;
+    const change = (today / usual - 1) * (direction === 'up' ? -1 : 1);
+    if (!best || change < best.change) best = { step, change };
+  }
+  return best && best.change < 0 ? best.step : undefined;
+}

@@ -97,7 +97,7 @@ export async function applyIncidentDrafts(
   });
   const touched = new Set(earlier.map((row) => row.id));
   const seen = new Set<string>();
-  for (const draft of mergeDrafts(drafts)) {
+  for (const draft of await withoutToldRestatements(client, s, flows, mergeDrafts(drafts))) {
     // The episode of this fingerprint that covers the day: opened on or before it and not resolved before it.
     const { rows } = await client.query<{ id: string; openedDay: Day }>({
       text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents where fingerprint = $1 and opened_day <= $2 and (resolved_day is null or resolved_day >= $2)
@@ -163,6 +163,28 @@ export async function applyIncidentDrafts(
   if (options.quiet) return changes;
   changes.announce.push(...announceResolved(resolved), ...(await announceSeen(client, schema, [...seen], day, policy, now)));
   return changes;
+}
+
+/** A freshness finding that late rows restated a past day: what the restated day's judgement again has to tell. */
+const isRestatement = (finding: IncidentDraft['symptoms'][number]) => finding.check === 'freshness' && finding.kind === 'restated';
+
+/**
+ * Drops the drafts that only say late rows restated past days whose
+ * incidents the judgement again already closed as late data: those
+ * incidents' one resolution message says it, so the arrival day opens no
+ * incident of its own (its findings stay recorded). A restatement that
+ * closed nothing is the only trace of the late rows and stays a note.
+ */
+async function withoutToldRestatements(client: pg.ClientBase, s: string, flows: readonly string[], drafts: IncidentDraft[]): Promise<IncidentDraft[]> {
+  const days = [...new Set(drafts.flatMap((d) => d.symptoms.filter(isRestatement).map((f) => String(f.evidence?.restatedDay ?? ''))))].filter((d) => d !== '');
+  if (days.length === 0) return drafts;
+  const { rows } = await client.query<{ day: Day }>({
+    text: `select distinct to_char(resolved_day, 'YYYY-MM-DD') as day from ${s}.incidents
+      where resolution = 'late_data' and flows && $1::text[] and resolved_day = any($2::date[])`,
+    values: [flows, days],
+  });
+  const told = new Set(rows.map((row) => row.day));
+  return drafts.filter((d) => !d.symptoms.every((f) => isRestatement(f) && told.has(String(f.evidence?.restatedDay))));
 }
 
 /** Days within which a finding on the subject of a recent incident joins it instead of opening another (common practice: "a few days"). */

@@ -33,6 +33,19 @@ describe('analyseCauses', () => {
     expect(draft.fingerprint).toBe('monthly_pass|release|version|android|7.4.0');
   });
 
+  it('tests an end-to-end move for a release at the step where the funnel moved, so it joins the release incident of the step', () => {
+    // android 7.4.0 loses half its riders; the done step also dips 15% on every android version that day, so over the
+    // whole flow the other version carries too much of the change to single one out.
+    const input = buildInput({
+      breakage: ({ platform, version }) => (platform === 'android' ? { done: 0.85, ...(version === '7.4.0' ? { rider: 0.5 } : {}) } : {}),
+    });
+    const completion = finding({ check: 'conversion', metric: 'end_to_end_conversion', subject: { type: 'flow', name: FLOW.id }, platform: null });
+    const draft = onlyDraft(analyseCauses(input, [completion, riderConversion('android')]));
+    expect(draft.cause.label).toBe('release');
+    expect(draft.cause.version).toBe('7.4.0');
+    expect(draft.symptoms).toHaveLength(2);
+  });
+
   it('does not blame a version when every version moved alike: one platform', () => {
     const input = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { rider: 0.5 } : {}) });
     const draft = onlyDraft(analyseCauses(input, [riderConversion('web')]));
@@ -89,6 +102,28 @@ describe('analyseCauses', () => {
     const loaded = onlyDraft(analyseCauses(twice, all));
     expect(loaded.cause.label).toBe('data_delay');
     expect(loaded.cause.evidence.lostData).toBe('rows_twice');
+  });
+
+  it('joins a rise of events per person to rows loaded twice that day, on any platform, instead of calling it a platform or behaviour', () => {
+    // The freshness check saw ios send about twice the events per person on most watched events; web's and android's
+    // per-person series rose past their own thresholds the same day (web has no versions: the platform test would take it).
+    const twice = buildInput();
+    twice.events = twice.events.map((row) => (row.day === DAY ? { ...row, events: 2 * row.events } : row));
+    const duplicates = finding({ check: 'freshness', metric: 'events_per_person', subject: { type: 'day', name: DAY }, platform: 'ios', kind: 'duplicates', direction: 'up', severity: 'warn' });
+    const perPerson = (platform: string, event: string) =>
+      finding({ check: 'volume', metric: 'events_per_person', subject: { type: 'event', name: event, event }, platform, direction: 'up', kind: 'spike' });
+    const draft = onlyDraft(analyseCauses(twice, [duplicates, perPerson('web', 'screen_shown'), perPerson('android', 'pass_purchase_result')]));
+    expect(draft.cause.label).toBe('data_delay');
+    expect(draft.symptoms).toHaveLength(3);
+    // Without the loader's mark, one event counted twice on every platform is still that load (every platform's and the
+    // watched events' counts per person rose): never behaviour.
+    const alone = onlyDraft(analyseCauses(twice, [perPerson('web', 'screen_shown')]));
+    expect(alone.cause.label).toBe('data_delay');
+    expect(alone.cause.evidence.lostData).toBe('rows_twice');
+    // web alone sending its events twice is a tracking change of web.
+    const webTwice = buildInput();
+    webTwice.events = webTwice.events.map((row) => (row.day === DAY && row.platform === 'web' ? { ...row, events: 2 * row.events } : row));
+    expect(onlyDraft(analyseCauses(webTwice, [perPerson('web', 'screen_shown')])).cause.label).toBe('platform');
   });
 
   it('calls an undeclared move of every event on every platform a data delay only with evidence of lost data, and freshness findings too', () => {

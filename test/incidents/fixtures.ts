@@ -150,6 +150,39 @@ export function delayDraft(day: string, flow = FLOW, owner = OWNER): IncidentDra
   };
 }
 
+/** The arrival day's note that late rows restated `restatedDay` on android, as `freshness` reports it: a data delay. */
+export function restatedDraft(day: string, restatedDay: string): IncidentDraft {
+  const message = `late rows restated ${restatedDay} on android: 2,100 events at the first rollup, 3,000 now (+42.9%); the day was rolled up again`;
+  const symptom: Finding = {
+    ...finding({ day, version: '' }),
+    check: 'freshness',
+    kind: 'restated',
+    subject: { type: 'day', name: restatedDay },
+    metric: 'events',
+    version: null,
+    severity: 'note',
+    direction: 'up',
+    message,
+    seriesKey: `freshness:restated:android:${restatedDay}`,
+    evidence: { restatedDay, before: 2100, after: 3000, change: 0.429, rolledUpAt: `${day}T08:00:00Z` },
+  };
+  return {
+    fingerprint: '*|data_delay|events|*|*',
+    flows: [FLOW],
+    owners: [OWNER],
+    day,
+    since: day,
+    severity: 'note',
+    title: `android: ${message}`,
+    subject: 'events',
+    platform: 'android',
+    version: null,
+    cause: { label: 'data_delay', confidence: 0.9, sentence: `the data is late or incomplete: ${message}`, platform: 'android', version: null, evidence: { check: 'freshness', kind: 'restated' } },
+    symptoms: [symptom],
+    muted: false,
+  };
+}
+
 /** Judges (FLOW, day) as the daily run does, in one transaction. */
 export async function judge(
   pool: pg.Pool,

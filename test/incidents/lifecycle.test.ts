@@ -13,7 +13,7 @@ import { migrate } from '../../service/db/migrate.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { listIncidents, loadIncident } from '../../service/incidents/store.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
-import { FLOW, MENTION, OWNER, POLICY, SIGNUP, clockFor, delayDraft, draft, judge, judgeFlows, outboxRows } from './fixtures.js';
+import { FLOW, MENTION, OWNER, POLICY, SIGNUP, clockFor, delayDraft, draft, judge, judgeFlows, outboxRows, restatedDraft } from './fixtures.js';
 
 let db: TestSchema;
 /** What each test fed in, printed when it fails. */
@@ -305,6 +305,27 @@ describe('applyIncidentDrafts', () => {
     expect(messages.filter((m) => m.incident_id === platformId).map((m) => m.event)).toEqual(['opened', 'resolved']);
     expect(JSON.stringify(messages.find((m) => m.incident_id === platformId && m.event === 'resolved')!.payload)).toContain('Late rows restated 2026-11-18');
     expect(messages.filter((m) => m.incident_id === byFingerprint.get(behaviour.fingerprint)!.id)).toEqual([]);
+  });
+
+  it('says late rows once, on the incidents they close: the arrival day opens no incident of its own for them', async () => {
+    const platform = draft({ day: '2026-11-18', fingerprint: `${FLOW}|platform|intro|android|*`, subject: 'intro', version: '' });
+    await day('2026-11-18', [platform]);
+    await day('2026-11-19', []);
+    // The rows arrive on 2026-11-20: 2026-11-18 is judged again with them, then 2026-11-20 itself, whose freshness notes the restatement.
+    await day('2026-11-18', [], { lateRows: true, now: clockFor('2026-11-20') });
+    await day('2026-11-20', [restatedDraft('2026-11-20', '2026-11-18')]);
+    const list = await incidents();
+    expect(list.map((i) => [i.fingerprint, i.resolution])).toEqual([[platform.fingerprint, 'late_data']]);
+    // The restatement stays among the day's findings.
+    const { rows } = await db.pool.query(`select kind from ${quoteIdent(db.schema)}.findings where day = '2026-11-20'`);
+    expect(rows.map((r) => r.kind)).toEqual(['restated']);
+  });
+
+  it('keeps the restatement note as an incident when nothing its first judgement opened was closed by it', async () => {
+    await day('2026-11-18', []);
+    await day('2026-11-18', [], { lateRows: true, now: clockFor('2026-11-20') });
+    await day('2026-11-20', [restatedDraft('2026-11-20', '2026-11-18')]);
+    expect((await incidents()).map((i) => [i.causeLabel, i.severity, i.openedDay])).toEqual([['data_delay', 'note', '2026-11-20']]);
   });
 
   it('rejects drafts of another flow or day', async () => {
