@@ -641,7 +641,10 @@ function behaviour(finding: Finding, input: CheckInput): Attribution {
     : [];
   const together = changes.length > 1 && changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change));
   return {
-    groupKey: `behaviour|${finding.subject.name}`,
+    // People doing something else on every platform alike is one change of the day, whichever series crossed a
+    // threshold (a holiday's events and steps, a regressed step's conversion and the people after it): one group,
+    // the same as "every watched series moved together" (dataDelay). A move on some platforms stays its series'.
+    groupKey: together ? `behaviour|together|${finding.direction}` : `behaviour|${finding.subject.name}`,
     cause: {
       label: 'behaviour',
       confidence: together ? 0.6 : 0.3,
