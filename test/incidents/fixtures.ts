@@ -8,7 +8,7 @@ import type { IncidentDraft } from '../../checks/causes/types.js';
 import type { ExcerptPoint, Finding, Severity } from '../../checks/types.js';
 import { addDays } from '../../service/config/definitions.js';
 import { quoteIdent } from '../../service/db/sql.js';
-import { applyIncidentDrafts, type IncidentChanges } from '../../service/incidents/apply.js';
+import { applyIncidentDrafts, type DayHolds, type IncidentChanges } from '../../service/incidents/apply.js';
 import type { IncidentPolicy } from '../../service/incidents/types.js';
 import { storeJudgement } from '../../service/state/findings.js';
 
@@ -155,7 +155,7 @@ export async function judge(
   schema: string,
   day: string,
   drafts: IncidentDraft[],
-  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
+  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy; lateRows?: boolean; holds?: DayHolds } = {},
 ): Promise<IncidentChanges> {
   return await judgeFlows(pool, schema, day, [{ flow: FLOW, drafts, verdict: options.verdict ?? 'judged' }], options);
 }
@@ -166,7 +166,7 @@ export async function judgeFlows(
   schema: string,
   day: string,
   flows: Array<{ flow: string; drafts: IncidentDraft[]; verdict?: 'judged' | 'not_ready' }>,
-  options: { now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
+  options: { now?: Date; policy?: IncidentPolicy; lateRows?: boolean; holds?: DayHolds } = {},
 ): Promise<IncidentChanges> {
   const client = await pool.connect();
   try {
@@ -177,6 +177,7 @@ export async function judgeFlows(
     const drafts = flows.flatMap((f) => f.drafts);
     const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, options.policy ?? POLICY, options.now ?? clockFor(day), {
       lateRows: options.lateRows ?? false,
+      ...(options.holds ? { holds: options.holds } : {}),
     });
     await client.query('commit');
     return changes;
