@@ -388,6 +388,9 @@ function release(finding: Finding, input: CheckInput, dayFindings: readonly Find
     if (!best || pValue < best.pValue) best = { version, own, rest, reference, pValue };
   }
   if (!best || best.pValue > CAUSE_THRESHOLDS.releasePValue) return undefined;
+  // Compared with the platform's usual self (nobody left on other versions), a version cannot be told from what
+  // moved every platform: the others must have moved at most `otherPlatformsShare` as much, as for a platform cause.
+  if (best.reference === baseline && movedElsewhere(input, measure, platform, days)) return undefined;
   // The other versions must look like the platform's usual self: they carry at most `restShareOfChange` of the
   // platform's change, or they are within `minZ` standard errors of their usual level (a version with a tenth of
   // the platform moves it a tenth as much as it moved, and the others' noise can be as large).
@@ -422,6 +425,17 @@ function release(finding: Finding, input: CheckInput, dayFindings: readonly Find
       },
     },
   };
+}
+
+/** Whether another platform moved more than `otherPlatformsShare` of `platform`'s relative change, the same way. */
+function movedElsewhere(input: CheckInput, measure: Measure, platform: string, days: readonly Day[]): boolean {
+  const own = relativeChange(input, measure, all(platform), days);
+  if (!Number.isFinite(own) || own === 0) return false;
+  return input.flow.platforms.some((p) => {
+    if (p === platform) return false;
+    const change = relativeChange(input, measure, all(p), days);
+    return Number.isFinite(change) && Math.sign(change) === Math.sign(own) && Math.abs(change) > CAUSE_THRESHOLDS.otherPlatformsShare * Math.abs(own);
+  });
 }
 
 function withoutPrefix(text: string, prefix: string): string {

@@ -292,6 +292,10 @@ describe('analyseCauses', () => {
       const draft = onlyDraft(analyseCauses(input, [riderConversion('android')]));
       expect(draft.cause).toMatchObject({ label: 'release', version: '7.4.0' });
       expect(draft.cause.sentence).toContain('against 80.0% usually on android');
+      // The same fall on every platform is no release: with nobody left to compare, the platform's usual self
+      // cannot tell a version from what people do everywhere (a conversion regression).
+      const everywhere = buildInput({ versions, breakage: () => ({ rider: 0.7 }) });
+      expect(onlyDraft(analyseCauses(everywhere, [riderConversion('android')])).cause.label).not.toBe('release');
     });
 
     it('places an all-platforms end-to-end finding on the platform and version that moved before labelling it', () => {
