@@ -6,10 +6,12 @@
  * together. The day is the unit, not the flow: a data delay holds back every
  * flow at once and is one incident and one message, listing the flows.
  *
- * Everything is derived from two tables, so a rerun of a day leaves exactly
+ * Everything is derived from three tables, so a rerun of a day leaves exactly
  * what the first run left: `incident_days` (one sighting per incident and
  * judged day, naming the flows that saw it; a rerun replaces the day's
- * sightings) and `judged_days` (the verdicts the resolution counts). Messages
+ * sightings), `incident_holds` (days that held an incident open without a
+ * sighting: a series still outside its band, a calendar day; replaced the
+ * same way) and `judged_days` (the verdicts the resolution counts). Messages
  * are unique per (incident, event, day), and an incident remembers what it
  * last announced, so a rerun cannot queue a message twice.
  */
@@ -292,8 +294,8 @@ interface SettleRow {
 /**
  * Sets each affected incident's state from its sightings and its flows'
  * verdicts: resolved on the `resolve_after_days`-th judged day after it was
- * last seen (a day none of its flows held back: `not_ready` days do not count
- * as clean), withdrawn when a rerun left it without sightings, open or ongoing
+ * last seen or held open (incident_holds) (a day none of its flows held back:
+ * `not_ready` days do not count as clean), withdrawn when a rerun left it without sightings, open or ongoing
  * otherwise. Returns the incidents that became resolved.
  */
 async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date): Promise<Incident[]> {
