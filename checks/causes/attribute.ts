@@ -653,7 +653,12 @@ function behaviour(finding: Finding, input: CheckInput): Attribution {
   const changes = measure
     ? input.flow.platforms.map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) })).filter((c) => Number.isFinite(c.change))
     : [];
-  const together = changes.length > 1 && changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change));
+  // Every platform alike: the same way, and each at least `otherPlatformsShare` of the largest move (a sliver the
+  // same way beside another platform's large move is that platform's).
+  const largest = Math.max(0, ...changes.map((c) => Math.abs(c.change)));
+  const together =
+    changes.length > 1 &&
+    changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change) && Math.abs(c.change) >= CAUSE_THRESHOLDS.otherPlatformsShare * largest);
   return {
     // People doing something else on every platform alike is one change of the day, whichever series crossed a
     // threshold (a holiday's events and steps, a regressed step's conversion and the people after it): one group,

@@ -343,6 +343,19 @@ describe('analyseCauses', () => {
       expect(draft.platform).toBeNull();
     });
 
+    it('calls a move every platform only when each platform moved comparably, not by a sliver the same way', () => {
+      // A web finding on a day the rider conversion slipped 1% on web, 2% on android and 5% on ios: all down, but
+      // not alike (a sliver against five times as much), so it stays web's.
+      const slip: Record<string, number> = { web: 0.99, android: 0.98, ios: 0.95 };
+      const input = buildInput({ breakage: ({ platform }) => ({ rider: slip[platform]! }) });
+      const draft = onlyDraft(analyseCauses(input, [riderConversion('web')]));
+      expect(draft.cause).toMatchObject({ label: 'behaviour', platform: 'web' });
+      expect(draft.platform).toBe('web');
+      // 20%, 22% and 25% down is every platform's.
+      const alike: Record<string, number> = { web: 0.8, android: 0.78, ios: 0.75 };
+      expect(onlyDraft(analyseCauses(buildInput({ breakage: ({ platform }) => ({ rider: alike[platform]! }) }), [riderConversion('web')])).platform).toBeNull();
+    });
+
     it('makes a conversion regression on every platform one incident, and the same fingerprint on its later days', () => {
       // The done step converts 30% less everywhere: its conversion, the people who reach it and the flow's completion.
       const input = buildInput({ breakage: () => ({ done: 0.7 }) });
