@@ -4,7 +4,24 @@
  * has been anomalous.
  */
 import { runStart } from './series.js';
-import type { CheckInput, Day, Finding, Severity } from './types.js';
+import type { BandExceedance, CheckInput, Day, Finding, Severity } from './types.js';
+
+/**
+ * Hysteresis: a series of an open incident counts as still outside its
+ * expected band while it is beyond this share of every finding threshold (the
+ * practical change and the score alike). An alarm deadband: an alarm clears
+ * at a value short of the one that raised it (ANSI/ISA-18.2-2016, "Management
+ * of Alarm Systems for the Process Industries"; cited from memory). The half is
+ * our heuristic.
+ */
+export const HOLD_SHARE = 0.5;
+
+/** The band exceedance a finding judged at the hysteresis band stands for. */
+export function exceedanceOf(finding: Finding): BandExceedance | undefined {
+  if (finding.direction === 'none') return undefined;
+  const { check, flow, seriesKey, platform, direction, observed, expected } = finding;
+  return { check, flow, seriesKey, platform, direction, observed, expected };
+}
 
 /**
  * On a declared low day that drops (or high day that rises) the move was

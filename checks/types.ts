@@ -182,6 +182,12 @@ export interface CheckInput {
    * baseline, not a change.
    */
   learning?: { days: number; needed: number };
+  /**
+   * Series keys (`Finding.seriesKey`) that an unresolved incident of the flow
+   * holds among its symptoms: checks with `outside` say which of them are
+   * still outside their expected band.
+   */
+  open?: string[];
 }
 
 /** One point of the series behind a finding. */
@@ -260,4 +266,24 @@ export interface CheckModule<S extends z.ZodType = z.ZodType> {
    * reads `input.learning` itself.
    */
   needsHistory?: boolean;
+  /**
+   * Optional (hysteresis): of the series in `input.open`, those still outside
+   * their expected band on the judged day though under the finding
+   * thresholds (`run` reported nothing about them). An open incident about
+   * such a series is not over: the day is no clean day for it.
+   */
+  outside?(input: CheckInput, options: WithPlatforms<z.output<S>>): BandExceedance[];
+}
+
+/** A series of an open incident still outside its expected band on the judged day, under the finding thresholds. */
+export interface BandExceedance {
+  check: string;
+  flow: string;
+  /** As `Finding.seriesKey`. */
+  seriesKey: string;
+  platform: string | null;
+  direction: 'up' | 'down';
+  observed: number;
+  /** The band the series is outside of (the hysteresis band, narrower than the finding thresholds). */
+  expected: { low: number; high: number; center: number };
 }

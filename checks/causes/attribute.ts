@@ -440,6 +440,9 @@ function versionOf(measure: Measure, platform: string, versions: readonly string
     if (!best || pValue < best.pValue) best = { version, own, rest, reference, pValue };
   }
   if (!best || best.pValue > CAUSE_THRESHOLDS.releasePValue) return undefined;
+  // Compared with the platform's usual self (nobody left on other versions), a version cannot be told from what
+  // moved every platform: the others must have moved at most `otherPlatformsShare` as much, as for a platform cause.
+  if (best.reference === baseline && movedElsewhere(input, measure, platform, days)) return undefined;
   // The other versions must look like the platform's usual self: they carry at most `restShareOfChange` of the
   // platform's change, or they are within `minZ` standard errors of their usual level (a version with a tenth of
   // the platform moves it a tenth as much as it moved, and the others' noise can be as large).
@@ -474,6 +477,17 @@ function versionOf(measure: Measure, platform: string, versions: readonly string
       },
     },
   };
+}
+
+/** Whether another platform moved more than `otherPlatformsShare` of `platform`'s relative change, the same way. */
+function movedElsewhere(input: CheckInput, measure: Measure, platform: string, days: readonly Day[]): boolean {
+  const own = relativeChange(input, measure, all(platform), days);
+  if (!Number.isFinite(own) || own === 0) return false;
+  return input.flow.platforms.some((p) => {
+    if (p === platform) return false;
+    const change = relativeChange(input, measure, all(p), days);
+    return Number.isFinite(change) && Math.sign(change) === Math.sign(own) && Math.abs(change) > CAUSE_THRESHOLDS.otherPlatformsShare * Math.abs(own);
+  });
 }
 
 function withoutPrefix(text: string, prefix: string): string {
@@ -691,9 +705,17 @@ function behaviour(finding: Finding, input: CheckInput): Attribution {
   const changes = measure
     ? input.flow.platforms.map((p) => ({ platform: p, change: relativeChange(input, measure, all(p), days) })).filter((c) => Number.isFinite(c.change))
     : [];
-  const together = changes.length > 1 && changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change));
+  // Every platform alike: the same way, and each at least `otherPlatformsShare` of the largest move (a sliver the
+  // same way beside another platform's large move is that platform's).
+  const largest = Math.max(0, ...changes.map((c) => Math.abs(c.change)));
+  const together =
+    changes.length > 1 &&
+    changes.every((c) => Math.sign(c.change) === Math.sign(changes[0]!.change) && Math.abs(c.change) >= CAUSE_THRESHOLDS.otherPlatformsShare * largest);
   return {
-    groupKey: `behaviour|${finding.subject.name}`,
+    // People doing something else on every platform alike is one change of the day, whichever series crossed a
+    // threshold (a holiday's events and steps, a regressed step's conversion and the people after it): one group,
+    // the same as "every watched series moved together" (dataDelay). A move on some platforms stays its series'.
+    groupKey: together ? `behaviour|together|${finding.direction}` : `behaviour|${finding.subject.name}`,
     cause: {
       label: 'behaviour',
       confidence: together ? 0.6 : 0.3,

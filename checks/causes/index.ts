@@ -63,6 +63,8 @@ function leads(a: Finding, b: Finding): boolean {
 const DATA_DELAY_SUBJECT = 'events';
 /** What a release's fingerprint is about: the version (which the fingerprint names), whatever it broke. */
 const RELEASE_SUBJECT = 'version';
+/** What a platform cause's fingerprint is about: the platform (which the fingerprint names), whichever series show it. */
+const PLATFORM_SUBJECT = 'platform';
 
 /** The incident drafts of one flow's judged day. */
 export function analyseCauses(input: CheckInput, findings: readonly Finding[]): IncidentDraft[] {
@@ -88,7 +90,9 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     // A release or a platform cause is its platform's, whichever symptoms show it (an all-platforms finding the
     // analysis placed there too); otherwise one platform when every symptom is on it, else none.
     const located = cause.label === 'release' || cause.label === 'platform';
-    const platform = located ? cause.platform : platforms.length === 1 ? platforms[0]! : null;
+    // Behaviour seen on every platform alike is about all of them, whichever platforms' series crossed a threshold.
+    const everywhere = cause.label === 'behaviour' && cause.platform === null;
+    const platform = located ? cause.platform : everywhere ? null : platforms.length === 1 ? platforms[0]! : null;
     const dataDelay = cause.label === 'data_delay';
     // A segment is about the value across the flow: which of its series crossed a threshold on a day is chance.
     const subject = dataDelay ? DATA_DELAY_SUBJECT : cause.label === 'segment' ? input.flow.id : subjectOf(symptoms, input, platform);
@@ -101,8 +105,10 @@ export function analyseCauses(input: CheckInput, findings: readonly Finding[]): 
     // Likewise which flows: a late or stopped pipeline holds back every flow at once, so a data delay names none.
     const fingerprintFlow = dataDelay ? '*' : input.flow.id;
     // A release is about its version, not about the series that show it: the step that is no longer reached
-    // today and the renamed parameter tomorrow are one incident.
-    const fingerprintSubject = cause.label === 'release' ? RELEASE_SUBJECT : subject;
+    // today and the renamed parameter tomorrow are one incident. Likewise a platform's shift is about the platform
+    // (the people it lost show on one step today and another tomorrow), and a change in what people do on every
+    // platform about the flow (a regressed step's conversion today, the people after it tomorrow).
+    const fingerprintSubject = cause.label === 'release' ? RELEASE_SUBJECT : cause.label === 'platform' ? PLATFORM_SUBJECT : everywhere ? input.flow.id : subject;
     drafts.push({
       fingerprint: `${fingerprintFlow}|${cause.label}|${fingerprintSubject}|${fingerprintPlatform}|${version ?? '*'}${segmentKey}`,
       flows: [input.flow.id],

@@ -63,8 +63,8 @@ import { formatCount, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent, severity } from '../options.js';
 import { baselineExclusions, excerpt } from '../series.js';
 import { criticalValue, predictDayProportion } from '../stats/index.js';
-import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../types.js';
-import { anomalousSince, calendarSeverity } from '../findings.js';
+import type { BandExceedance, CheckInput, CheckModule, Finding, WithPlatforms } from '../types.js';
+import { HOLD_SHARE, anomalousSince, calendarSeverity } from '../findings.js';
 import { conversionSettled, funnelTotals, rateSeries, transitions, type RateSeries, type Transition } from '../funnel.js';
 
 /** Fewest usable baseline days for a judgement: one week, each weekday once. */
@@ -123,7 +123,7 @@ interface RateJudgement {
  * before it; undefined when the day is below the volume floor or the baseline
  * is too short. `leaveOut[i]` keeps day i out of the baseline.
  */
-function judgeRate(series: RateSeries, index: number, leaveOut: readonly boolean[], o: Options, tests: number): RateJudgement | undefined {
+function judgeRate(series: RateSeries, index: number, leaveOut: readonly boolean[], o: Options, tests: number, share = 1): RateJudgement | undefined {
   const successes = series.successes[index]!;
   const trials = series.trials[index]!;
   if (!(trials >= o.min_people) || !(successes >= 0 && successes <= trials)) return undefined;
@@ -148,9 +148,10 @@ function judgeRate(series: RateSeries, index: number, leaveOut: readonly boolean
   const se = Math.sqrt(predicted.variance);
   // The practical floor: points or a share of the baseline rate, whichever is reached first.
   const floor = Math.min(o.min_effect_pp / 100, o.min_effect_relative * baseline);
-  const halfWidth = Math.max(floor, critical * se);
+  // `share` < 1: the hysteresis band of an open incident's series (HOLD_SHARE of both thresholds).
+  const halfWidth = share * Math.max(floor, critical * se);
   const direction = effect < 0 ? 'down' : 'up';
-  const flagged = Math.abs(predicted.score) >= critical && Math.abs(effect) >= floor && (o.direction === 'both' || o.direction === direction);
+  const flagged = Math.abs(predicted.score) >= share * critical && Math.abs(effect) >= share * floor && (o.direction === 'both' || o.direction === direction);
   return {
     observed,
     successes,
@@ -275,11 +276,40 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
   return findings;
 }
 
+/**
+ * Hysteresis: the open series (`input.open`) whose day is still beyond half of
+ * both thresholds (the critical value and the effect floor), in the direction
+ * the options report; the pipeline keeps the ones `run` did not report.
+ */
+function outside(input: CheckInput, all: WithPlatforms<Options>): BandExceedance[] {
+  const open = new Set(input.open ?? []);
+  if (open.size === 0 || !conversionSettled(input)) return [];
+  const flow = input.flow;
+  const list = transitions(flow);
+  const tests = list.length * (flow.platforms.length + 1);
+  const last = input.days.length - 1;
+  const exceedances: BandExceedance[] = [];
+  for (const transition of list) {
+    for (const platform of [...flow.platforms, null]) {
+      const seriesKey = seriesKeyOf(transition, platform);
+      if (!open.has(seriesKey)) continue;
+      const o = platform === null ? all : optionsFor(all, platform);
+      const series = rateSeries(input, funnelTotals(input, platform === null ? flow.platforms : [platform]), transition);
+      const skip = baselineExclusions(seriesKey, input.anomalous, input.calendar);
+      const judged = judgeRate(series, last, input.days.map((day) => skip.has(day)), o, tests, HOLD_SHARE);
+      if (!judged?.flagged) continue;
+      exceedances.push({ check: 'conversion', flow: flow.id, seriesKey, platform, direction: judged.direction, observed: judged.observed, expected: { low: judged.low, high: judged.high, center: judged.baseline } });
+    }
+  }
+  return exceedances;
+}
+
 export const conversionCheck: CheckModule<typeof options> = {
   id: 'conversion',
   description: 'Step-to-step and end-to-end funnel conversion per platform against its recent baseline, with binomial and day-to-day uncertainty and a minimum practical effect.',
   options,
   messages,
   run,
+  outside,
   needsHistory: true,
 };

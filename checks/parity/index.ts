@@ -38,9 +38,9 @@ import { formatCount, formatNumber, formatPercent, renderMessage } from '../mess
 import { optionsFor, percent, severity } from '../options.js';
 import { baselineExclusions, excerpt } from '../series.js';
 import { robustLocationScale } from '../stats/index.js';
-import { ALL_VERSIONS, type CheckInput, type CheckModule, type Finding, type FlowStep, type WithPlatforms } from '../types.js';
+import { ALL_VERSIONS, type BandExceedance, type CheckInput, type CheckModule, type Finding, type FlowStep, type WithPlatforms } from '../types.js';
 import { MIN_BASELINE_DAYS, divergence, type PlatformSeries } from './divergence.js';
-import { anomalousSince, calendarSeverity } from '../findings.js';
+import { HOLD_SHARE, anomalousSince, calendarSeverity, exceedanceOf } from '../findings.js';
 
 const EXCERPT_DAYS = 28;
 /** A step or event counts as absent at or below this share of its usual people (a few stragglers from cached clients). */
@@ -85,10 +85,6 @@ interface Metric {
 }
 
 function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
-  const platforms = input.flow.platforms;
-  const days = input.days;
-  const today = days.length - 1;
-  const window = baselineWindow(days.length, all.baseline_days);
   const absences = absentFindings(input, all);
   const absentSteps = new Map<string, Set<number>>();
   for (const finding of absences) {
@@ -100,7 +96,19 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
     for (const k of steps) absentSteps.get(finding.platform)!.add(k);
   }
 
-  const findings: Finding[] = [...absences];
+  return [...absences, ...ratioFindings(input, all, absentSteps, 1)];
+}
+
+/**
+ * The share and conversion findings, at `share` of the thresholds (1: the
+ * findings; HOLD_SHARE: the hysteresis band), of the series in `only` when given.
+ */
+function ratioFindings(input: CheckInput, all: WithPlatforms<Options>, absentSteps: ReadonlyMap<string, Set<number>>, share: number, only?: ReadonlySet<string>): Finding[] {
+  const platforms = input.flow.platforms;
+  const days = input.days;
+  const today = days.length - 1;
+  const window = baselineWindow(days.length, all.baseline_days);
+  const findings: Finding[] = [];
   for (const metric of ratioMetrics(input)) {
     const series: PlatformSeries[] = platforms.map((platform) => {
       const o = optionsFor(all, platform);
@@ -122,9 +130,11 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
       return { platform, log, se, excluded: baselineExclusions(seriesKey(metric, platform), input.anomalous, input.calendar) };
     });
     for (const platform of platforms) {
+      if (only && !only.has(seriesKey(metric, platform))) continue;
       const explained = absentSteps.get(platform);
       if (explained && (explained.has(metric.step) || explained.has(metric.step - 1) || (metric.kind === 'share' && explained.has(0)))) continue;
-      const o = optionsFor(all, platform);
+      const base = optionsFor(all, platform);
+      const o = { ...base, tolerance: base.tolerance * share, min_score: base.min_score * share };
       const result = divergence(series, platform, days, window);
       if (!result) continue;
       const tooLow = result.divergence <= Math.log(1 - o.tolerance);
@@ -138,6 +148,17 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
     }
   }
   return findings;
+}
+
+/**
+ * Hysteresis: the open series (`input.open`) of shares and conversions still
+ * beyond half of both thresholds (tolerance and score); the pipeline keeps the
+ * ones `run` did not report.
+ */
+function outside(input: CheckInput, all: WithPlatforms<Options>): BandExceedance[] {
+  const open = new Set(input.open ?? []);
+  if (open.size === 0) return [];
+  return ratioFindings(input, all, new Map(), HOLD_SHARE, open).flatMap((f) => exceedanceOf(f) ?? []);
 }
 
 /** Indices of the `baselineDays` days before the judged day. */
@@ -359,6 +380,7 @@ export const parityCheck: CheckModule<typeof options> = {
   options,
   messages,
   run,
+  outside,
   needsHistory: true,
 };
 

@@ -35,10 +35,10 @@
 import { z } from 'zod';
 import { formatNumber, formatPercent, renderMessage } from '../messages.js';
 import { optionsFor, percent, severity } from '../options.js';
-import { anomalousSince } from '../findings.js';
+import { HOLD_SHARE, anomalousSince, exceedanceOf } from '../findings.js';
 import { baselineExclusions, countSeries, eventRows, excerpt, platformDays, stepRows, withoutDays, type Counts } from '../series.js';
 import { weekday } from '../time.js';
-import type { CheckInput, CheckModule, Finding, FlowStep, Severity, WithPlatforms } from '../types.js';
+import type { BandExceedance, CheckInput, CheckModule, Finding, FlowStep, Severity, WithPlatforms } from '../types.js';
 import { expectation, logRatio } from './baseline.js';
 import { eventsPerPerson } from './counts.js';
 
@@ -286,11 +286,40 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
   return findings;
 }
 
+/**
+ * Hysteresis: the open series (`input.open`) still beyond half of every
+ * threshold (practical change and score), in either direction; the pipeline
+ * keeps the ones `run` did not report.
+ */
+function outside(input: CheckInput, all: WithPlatforms<Options>): BandExceedance[] {
+  const open = new Set(input.open ?? []);
+  if (open.size === 0) return [];
+  const exceedances: BandExceedance[] = [];
+  for (const series of allSeries(input)) {
+    const o = optionsFor(all, series.platform);
+    const held: Options = {
+      ...o,
+      max_drop: o.max_drop * HOLD_SHARE,
+      max_rise: o.max_rise * HOLD_SHARE,
+      max_events_per_person_change: o.max_events_per_person_change * HOLD_SHARE,
+      min_score: o.min_score * HOLD_SHARE,
+    };
+    const key = (metric: Judged['metric']) => `volume:${metric}:${series.key}:${series.platform}:*`;
+    const found = [...(open.has(key('people')) ? judgePeople(input, series, held) : []), ...(open.has(key('events_per_person')) ? [judgeRate(input, series, held)] : [])];
+    for (const f of found) {
+      const exceedance = f && exceedanceOf(f);
+      if (exceedance) exceedances.push(exceedance);
+    }
+  }
+  return exceedances;
+}
+
 export const volumeCheck: CheckModule<typeof options> = {
   id: 'volume',
   description: 'Daily people per watched event and step on each platform against a day-of-week expectation, silent series, and jumps in events per person.',
   options,
   messages,
   run,
+  outside,
   needsHistory: true,
 };

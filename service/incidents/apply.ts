@@ -7,10 +7,12 @@
  * is the unit, not the flow: a data delay holds back every flow at once and is
  * one incident and one message, listing the flows.
  *
- * Everything is derived from two tables, so a rerun of a day leaves exactly
+ * Everything is derived from three tables, so a rerun of a day leaves exactly
  * what the first run left: `incident_days` (one sighting per incident and
  * judged day, naming the flows that saw it; a rerun replaces the day's
- * sightings) and `judged_days` (the verdicts the resolution counts). Messages
+ * sightings), `incident_holds` (days that held an incident open without a
+ * sighting: a series still outside its band, a calendar day; replaced the
+ * same way) and `judged_days` (the verdicts the resolution counts). Messages
  * are unique per (incident, event, day), and an incident remembers what it
  * last announced, so a rerun cannot queue a message twice.
  */
@@ -19,7 +21,7 @@ import type pg from 'pg';
 import { mergeDrafts } from '../../checks/causes/index.js';
 import type { IncidentDraft } from '../../checks/causes/types.js';
 import { SEVERITIES, SEVERITY_RANK } from '../../checks/severity.js';
-import type { Day } from '../../checks/types.js';
+import type { BandExceedance, Day } from '../../checks/types.js';
 import type { MainConfig } from '../config/schema.js';
 import { quoteIdent } from '../db/sql.js';
 import { loadIncidents } from './store.js';
@@ -80,7 +82,7 @@ export async function applyIncidentDrafts(
   drafts: readonly IncidentDraft[],
   policy: IncidentPolicy,
   now: Date,
-  options: { quiet?: boolean; lateRows?: boolean } = {},
+  options: { quiet?: boolean; lateRows?: boolean; holds?: DayHolds } = {},
 ): Promise<IncidentChanges> {
   for (const draft of drafts) {
     const stranger = draft.flows.find((flow) => !flows.includes(flow));
@@ -95,7 +97,11 @@ export async function applyIncidentDrafts(
     text: `delete from ${s}.incident_days where day = $1 and flows && $2::text[] returning incident_id as id`,
     values: [day, flows],
   });
-  const touched = new Set(earlier.map((row) => row.id));
+  const { rows: heldBefore } = await client.query<{ id: string }>({
+    text: `delete from ${s}.incident_holds where day = $1 and flows && $2::text[] returning incident_id as id`,
+    values: [day, flows],
+  });
+  const touched = new Set([...earlier, ...heldBefore].map((row) => row.id));
   const seen = new Set<string>();
   for (const draft of await withoutToldRestatements(client, s, flows, mergeDrafts(drafts))) {
     // The episode of this fingerprint that covers the day: opened on or before it and not resolved before it.
@@ -156,6 +162,7 @@ export async function applyIncidentDrafts(
     touched.add(id);
     seen.add(id);
   }
+  for (const id of await recordHolds(client, s, flows, day, options.holds, [...seen])) touched.add(id);
   await refreshFromSightings(client, s, [...touched], now);
   const late = options.lateRows ? await closeAsLateData(client, s, day, [...touched].filter((id) => !seen.has(id)), now) : [];
   const resolved = [...(await loadIncidents(client, schema, late)), ...(await settle(client, schema, flows, day, [...touched], policy, now, changes.withdraw))];
@@ -192,24 +199,65 @@ export const JOIN_DAYS = 3;
 
 /**
  * Hysteresis: an incident of the draft's flow about the same subject, on the
- * same platform and version (or both on all), seen within JOIN_DAYS days
- * (resolved since by clean days, or not): the draft joins it, whatever cause
- * it was given. The scope must match exactly: an all-platform move is not
- * folded into one platform's incident, nor a new release into an older one. A shift that hovers around a threshold, or whose label wavers
- * between two tests, stays one incident. Data delays and calendar notes have
- * their own fingerprints across subjects and never join.
+ * same platform and version (or both on all), seen or held open (incident_holds)
+ * within JOIN_DAYS days (resolved since by clean days, or not): the draft joins
+ * it, whatever cause it was given. The subject is the one the fingerprint
+ * names (a release's version, a platform's shift, a change of the whole flow)
+ * or the series' subject; and a platform's shift takes in what that platform
+ * alone shows with no version to blame (its people lost on one step look like
+ * behaviour or a segment there), as an incident confined to the platform takes
+ * in the platform cause that comes to explain it. The scope must match exactly:
+ * an all-platform move is not folded into one platform's incident, nor a new
+ * release into an older one. A shift that hovers around a threshold, or whose
+ * label wavers between two tests, stays one incident. Data delays and calendar
+ * notes have their own fingerprints across subjects and never join.
  */
 async function recentOnSameSubject(client: pg.ClientBase, s: string, draft: IncidentDraft, day: Day): Promise<{ id: string; openedDay: Day } | undefined> {
   if (draft.cause.label === 'data_delay' || draft.cause.label === 'calendar') return undefined;
   const { rows } = await client.query<{ id: string; openedDay: Day }>({
-    text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents
-      where flow = $1 and subject = $2 and opened_day <= $3 and last_seen_day >= $3::date - $4::int
+    text: `select id, to_char(opened_day, 'YYYY-MM-DD') as "openedDay" from ${s}.incidents i
+      where flow = $1 and opened_day <= $3
+        and greatest(last_seen_day, (select max(h.day) from ${s}.incident_holds h where h.incident_id = i.id and h.day < $3)) >= $3::date - $4::int
         and platform is not distinct from $5 and version is not distinct from $6
         and cause_label not in ('data_delay', 'calendar') and (resolution is null or resolution = 'clean_days')
+        and (subject = $2 or fingerprint = $7 or ($5::text is not null and $6::text is null and 'platform' in (cause_label, $8)))
       order by last_seen_day desc, opened_day, id limit 1 for update`,
-    values: [draft.flows[0], draft.subject, day, JOIN_DAYS, draft.platform, draft.version],
+    values: [draft.flows[0], draft.subject, day, JOIN_DAYS, draft.platform, draft.version, draft.fingerprint, draft.cause.label],
   });
   return rows[0];
+}
+
+/** What holds incidents open on a judged day without a sighting (hysteresis). */
+export interface DayHolds {
+  /** Series of open incidents still outside their expected band, under the finding thresholds (`CheckModule.outside`). */
+  outside: BandExceedance[];
+  /** The flows whose calendar declares the day: it is neither a clean day nor a break in their incidents' runs. */
+  calendar: string[];
+}
+
+/**
+ * Records the day as held (no clean day) for every incident it was not seen
+ * on that is unresolved on it: those of a flow whose calendar declares the day,
+ * and those with a symptom on a series still outside its band, the same way.
+ * Returns their ids.
+ */
+async function recordHolds(client: pg.ClientBase, s: string, flows: readonly string[], day: Day, holds: DayHolds | undefined, seen: string[]): Promise<string[]> {
+  if (!holds || (holds.outside.length === 0 && holds.calendar.length === 0)) return [];
+  const outside = holds.outside.map((e) => `${e.flow}|${e.seriesKey}|${e.direction}`);
+  const { rows } = await client.query<{ id: string }>({
+    text: `insert into ${s}.incident_holds (incident_id, day, flows, reason)
+      select i.id, $1, $2, case when i.flows && $4::text[] then 'calendar' else 'band' end
+      from ${s}.incidents i
+      where i.flows && $2::text[] and i.opened_day < $1 and not (i.id = any($3))
+        and (i.status <> 'resolved' or i.resolved_day >= $1) and i.resolution is distinct from 'late_data' and i.resolution is distinct from 'withdrawn'
+        and (i.flows && $4::text[] or exists (
+          select 1 from ${s}.incident_days d cross join lateral jsonb_array_elements(d.symptoms) as f
+          where d.incident_id = i.id and d.day < $1 and (f->>'flow') || '|' || (f->>'seriesKey') || '|' || (f->>'direction') = any($5::text[])))
+      on conflict (incident_id, day) do nothing
+      returning incident_id as id`,
+    values: [day, flows, seen, holds.calendar, outside],
+  });
+  return rows.map((row) => row.id);
 }
 
 /** Recomputes an incident's days, latest details and highest severity from its sightings. */
@@ -272,17 +320,17 @@ interface SettleRow {
 /**
  * Sets each affected incident's state from its sightings and its flows'
  * verdicts: resolved on the `resolve_after_days`-th judged day after it was
- * last seen (a day none of its flows held back: `not_ready` days do not count
- * as clean), withdrawn when a rerun left it without sightings, open or ongoing
- * otherwise. Returns the incidents that became resolved; adds to `withdraw`
- * those whose resolution no longer holds.
+ * last seen or held open (incident_holds) (a day none of its flows held back:
+ * `not_ready` days do not count as clean), withdrawn when a rerun left it
+ * without sightings, open or ongoing otherwise. Returns the incidents that
+ * became resolved; adds to `withdraw` those whose resolution no longer holds.
  */
 async function settle(client: pg.ClientBase, schema: string, flows: readonly string[], day: Day, touched: string[], policy: IncidentPolicy, now: Date, withdraw: string[]): Promise<Incident[]> {
   const s = quoteIdent(schema);
   const { rows } = await client.query<SettleRow>({
     text: `select i.id, i.status, to_char(i.resolved_day, 'YYYY-MM-DD') as "resolvedDay", i.resolution, i.days_seen as "daysSeen",
         (select to_char(j.day, 'YYYY-MM-DD') from ${s}.judged_days j
-          where j.flow = any(i.flows) and j.day > i.last_seen_day
+          where j.flow = any(i.flows) and j.day > greatest(i.last_seen_day, (select max(h.day) from ${s}.incident_holds h where h.incident_id = i.id))
           group by j.day having bool_and(j.verdict = 'judged') order by j.day offset $3 limit 1) as "cleanDay"
       from ${s}.incidents i
       where i.flows && $1::text[] and (i.status <> 'resolved' or i.resolved_day >= $2 or i.id = any($4)) and i.resolution is distinct from 'late_data'

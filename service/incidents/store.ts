@@ -97,3 +97,30 @@ export async function latestSightings(db: Db, schema: string, ids: string[]): Pr
   });
   return new Map(rows.map((row) => [row.incidentId, row]));
 }
+
+/** Days of an open incident's sightings whose series the checks are asked about (hysteresis: `CheckInput.open`). */
+export const OPEN_SERIES_DAYS = 14;
+
+/**
+ * The series keys each of `flows` holds in its unresolved incidents (opened
+ * before `day`), from their sightings of the last OPEN_SERIES_DAYS days: the
+ * series the checks say are still outside their band (`CheckModule.outside`).
+ */
+export function openSeriesQuery(schema: string, flows: readonly string[], day: Day): Query {
+  const s = quoteIdent(schema);
+  return {
+    text: `select distinct f->>'flow' as flow, f->>'seriesKey' as "seriesKey"
+      from ${s}.incidents i
+      join ${s}.incident_days d on d.incident_id = i.id and d.day < $2 and d.day >= $2::date - $3::int
+      cross join lateral jsonb_array_elements(d.symptoms) as f
+      where i.status <> 'resolved' and i.flows && $1::text[] and i.opened_day < $2 and f->>'flow' = any($1::text[])`,
+    values: [flows, day, OPEN_SERIES_DAYS],
+  };
+}
+
+export async function openSeries(db: Db, schema: string, flows: readonly string[], day: Day): Promise<Map<string, string[]>> {
+  const { rows } = await db.query<{ flow: string; seriesKey: string }>(openSeriesQuery(schema, flows, day));
+  const byFlow = new Map<string, string[]>();
+  for (const row of rows) byFlow.set(row.flow, [...(byFlow.get(row.flow) ?? []), row.seriesKey]);
+  return byFlow;
+}

@@ -3,13 +3,15 @@
  * backtests, so a replay over stored rollups gives exactly what a live run gave.
  */
 import { registry } from '../../checks/registry.js';
-import type { CheckInput, CheckModule, Finding, WithPlatforms } from '../../checks/types.js';
+import type { BandExceedance, CheckInput, CheckModule, Finding, WithPlatforms } from '../../checks/types.js';
 import type { FlowConfig } from '../config/schema.js';
 
 export interface Judgement {
   verdict: 'judged' | 'not_ready';
   reason?: string;
   findings: Finding[];
+  /** Series of open incidents (`input.open`) still outside their expected band, under the finding thresholds: no clean day for those incidents. */
+  outside: BandExceedance[];
   /** Checks that failed with an error: counted and logged by the caller, never silent. */
   errors: Array<{ check: string; error: Error }>;
 }
@@ -64,6 +66,17 @@ export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly C
       errors.push({ check: check.id, error: error as Error });
     }
   }
+  // Hysteresis: of the open incidents' series the checks did not report, those still outside their band.
+  const outside: BandExceedance[] = [];
+  const reported = new Set(findings.map((finding) => finding.seriesKey));
+  for (const { check, options } of active) {
+    if (!check.outside || verdict === 'not_ready' || (input.learning && check.needsHistory) || !input.open?.length) continue;
+    try {
+      outside.push(...check.outside(input, options).filter((exceedance) => !reported.has(exceedance.seriesKey)));
+    } catch (error) {
+      errors.push({ check: check.id, error: error as Error });
+    }
+  }
   for (const finding of findings) {
     const mute = flow.mutes.find(
       (m) =>
@@ -74,5 +87,5 @@ export function judgeDay(input: CheckInput, flow: FlowConfig, checks: readonly C
     );
     if (mute) finding.muted = mute.reason;
   }
-  return { verdict, ...(reason !== undefined ? { reason } : {}), findings, errors };
+  return { verdict, ...(reason !== undefined ? { reason } : {}), findings, outside, errors };
 }

@@ -11,6 +11,7 @@ import type { DayRange } from '../warehouse/engine.js';
 import type { Runtime } from '../runtime.js';
 import { announceChanges } from '../delivery/announce.js';
 import { applyIncidentDrafts, incidentPolicy } from '../incidents/apply.js';
+import { openSeries } from '../incidents/store.js';
 import { storeJudgement } from '../state/findings.js';
 import { historyStart, loadAnomalousDays, loadHistory, sliceInput } from './history.js';
 import { judgeDay, type Judgement } from './judge.js';
@@ -133,8 +134,13 @@ export async function judgeDays(
   const flowIds = flows.map(({ flow }) => flow.id);
   for (const day of days) {
     const judge = async (): Promise<FlowJudgement[]> => {
+      // Hysteresis: the series open incidents hold, whose checks say whether they are still outside their band.
+      const open = await openSeries(reader, writeSchema, flowIds, day);
+      const calendarFlows: string[] = [];
       const judged = flows.map(({ flow, config, history, anomalous }) => {
         const input = sliceInput(history, day, historyDays, anomalous, clock(day).toISOString(), rt.timezone, rt.config.main.delivery.hide_values, rt.config.main.judging.learning_days);
+        input.open = open.get(flow.id) ?? [];
+        if (input.calendar.some((entry) => entry.day === day)) calendarFlows.push(flow.id);
         const result = judgeDay(input, config);
         for (const { check, error } of result.errors) rt.log.error({ err: error, check, flow: flow.id, day }, 'check failed');
         return { flow: flow.id, day, ...result, incidents: analyseCauses(input, result.findings) };
@@ -142,7 +148,8 @@ export async function judgeDays(
       // Findings, incidents and their messages change together or not at all.
       await write(async (client) => {
         for (const judgement of judged) await storeJudgement(client, writeSchema, judgement.flow, day, judgement.verdict, judgement.reason, judgement.findings);
-        const changes = await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), options);
+        const holds = { outside: judged.flatMap((judgement) => judgement.outside), calendar: calendarFlows };
+        const changes = await applyIncidentDrafts(client, writeSchema, flowIds, day, judged.flatMap((judgement) => judgement.incidents), policy, clock(day), { ...options, holds });
         await announceChanges(client, writeSchema, changes, policy, clock(day));
       });
       return judged;

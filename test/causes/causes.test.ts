@@ -327,6 +327,10 @@ describe('analyseCauses', () => {
       const draft = onlyDraft(analyseCauses(input, [riderConversion('android')]));
       expect(draft.cause).toMatchObject({ label: 'release', version: '7.4.0' });
       expect(draft.cause.sentence).toContain('against 80.0% usually on android');
+      // The same fall on every platform is no release: with nobody left to compare, the platform's usual self
+      // cannot tell a version from what people do everywhere (a conversion regression).
+      const everywhere = buildInput({ versions, breakage: () => ({ rider: 0.7 }) });
+      expect(onlyDraft(analyseCauses(everywhere, [riderConversion('android')])).cause.label).not.toBe('release');
     });
 
     it('places an all-platforms end-to-end finding on the platform and version that moved before labelling it', () => {
@@ -342,10 +346,64 @@ describe('analyseCauses', () => {
       const web = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { rider: 0.5 } : {}) });
       const webDraft = onlyDraft(analyseCauses(web, [endToEnd]));
       expect(webDraft.cause).toMatchObject({ label: 'platform', platform: 'web' });
-      expect(webDraft.fingerprint).toBe('monthly_pass|platform|rider|web|*');
+      expect(webDraft.fingerprint).toBe('monthly_pass|platform|platform|web|*');
       // Every platform alike stays an all-platforms behaviour.
       const everywhere = buildInput({ breakage: () => ({ rider: 0.5 }) });
       expect(onlyDraft(analyseCauses(everywhere, [endToEnd])).cause).toMatchObject({ label: 'behaviour', platform: null });
+    });
+
+    it('makes one platform that lost people one fingerprint, whichever of its series crossed a threshold on a day', () => {
+      // web lost 30% of its people on every step: one day the rider step shows it, the next the event.
+      const input = buildInput({ breakage: ({ platform }) => (platform === 'web' ? { volume: 0.7 } : {}) });
+      const step = onlyDraft(analyseCauses(input, [finding({ check: 'volume', metric: 'people', subject: { type: 'step', name: 'rider', step: 'rider' }, platform: 'web' })]));
+      const event = onlyDraft(analyseCauses(input, [finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'pass_purchase_result', event: 'pass_purchase_result' }, platform: 'web' })]));
+      expect(step.cause).toMatchObject({ label: 'platform', platform: 'web' });
+      expect(event.cause).toMatchObject({ label: 'platform', platform: 'web' });
+      expect(event.fingerprint).toBe(step.fingerprint);
+      // The subject still says where it shows.
+      expect([step.subject, event.subject]).toEqual(['rider', 'pass_purchase_result']);
+    });
+
+    it('makes every behaviour symptom of a day that moved on every platform alike one incident: an undeclared holiday', () => {
+      // 45% fewer people everywhere with intact data, seen by a few series only (too few for "everything moved together").
+      const input = buildInput({ breakage: () => ({ volume: 0.55 }) });
+      const symptoms = [
+        finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'screen_shown', event: 'screen_shown' }, platform: 'web' }),
+        finding({ check: 'seasonal', metric: 'people', subject: { type: 'event', name: 'pass_purchase_result', event: 'pass_purchase_result' }, platform: 'ios' }),
+        finding({ check: 'volume', metric: 'people', subject: { type: 'step', name: 'rider', step: 'rider' }, platform: 'android' }),
+      ];
+      const draft = onlyDraft(analyseCauses(input, symptoms));
+      expect(draft.cause).toMatchObject({ label: 'behaviour', platform: null });
+      expect(draft.symptoms).toHaveLength(3);
+      expect(draft.platform).toBeNull();
+    });
+
+    it('calls a move every platform only when each platform moved comparably, not by a sliver the same way', () => {
+      // A web finding on a day the rider conversion slipped 1% on web, 2% on android and 5% on ios: all down, but
+      // not alike (a sliver against five times as much), so it stays web's.
+      const slip: Record<string, number> = { web: 0.99, android: 0.98, ios: 0.95 };
+      const input = buildInput({ breakage: ({ platform }) => ({ rider: slip[platform]! }) });
+      const draft = onlyDraft(analyseCauses(input, [riderConversion('web')]));
+      expect(draft.cause).toMatchObject({ label: 'behaviour', platform: 'web' });
+      expect(draft.platform).toBe('web');
+      // 20%, 22% and 25% down is every platform's.
+      const alike: Record<string, number> = { web: 0.8, android: 0.78, ios: 0.75 };
+      expect(onlyDraft(analyseCauses(buildInput({ breakage: ({ platform }) => ({ rider: alike[platform]! }) }), [riderConversion('web')])).platform).toBeNull();
+    });
+
+    it('makes a conversion regression on every platform one incident, and the same fingerprint on its later days', () => {
+      // The done step converts 30% less everywhere: its conversion, the people who reach it and the flow's completion.
+      const input = buildInput({ breakage: () => ({ done: 0.7 }) });
+      const done = (platform: string) => finding({ check: 'conversion', metric: 'step_conversion', subject: { type: 'step', name: 'done', step: 'done' }, platform });
+      const reached = finding({ check: 'volume', metric: 'people', subject: { type: 'event', name: 'pass_purchase_result', event: 'pass_purchase_result' }, platform: 'android' });
+      const endToEnd = finding({ check: 'seasonal', metric: 'conversion', subject: { type: 'flow', name: 'monthly_pass' }, platform: null });
+      const first = onlyDraft(analyseCauses(input, [done('web'), done('android'), done('ios'), reached, endToEnd]));
+      expect(first.cause).toMatchObject({ label: 'behaviour', platform: null });
+      expect(first.subject).toBe('done');
+      expect(first.symptoms).toHaveLength(5);
+      // A later day on which only the people reaching the step crossed a threshold is the same incident.
+      const later = onlyDraft(analyseCauses(input, [reached]));
+      expect(later.fingerprint).toBe(first.fingerprint);
     });
 
     const webType = finding({

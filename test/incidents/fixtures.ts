@@ -9,7 +9,7 @@ import type { ExcerptPoint, Finding, Severity } from '../../checks/types.js';
 import { addDays } from '../../service/config/definitions.js';
 import { quoteIdent } from '../../service/db/sql.js';
 import { announceChanges } from '../../service/delivery/announce.js';
-import { applyIncidentDrafts, type IncidentChanges } from '../../service/incidents/apply.js';
+import { applyIncidentDrafts, type DayHolds, type IncidentChanges } from '../../service/incidents/apply.js';
 import type { IncidentPolicy } from '../../service/incidents/types.js';
 import { storeJudgement } from '../../service/state/findings.js';
 
@@ -189,7 +189,7 @@ export async function judge(
   schema: string,
   day: string,
   drafts: IncidentDraft[],
-  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
+  options: { verdict?: 'judged' | 'not_ready'; now?: Date; policy?: IncidentPolicy; lateRows?: boolean; holds?: DayHolds } = {},
 ): Promise<IncidentChanges> {
   return await judgeFlows(pool, schema, day, [{ flow: FLOW, drafts, verdict: options.verdict ?? 'judged' }], options);
 }
@@ -200,7 +200,7 @@ export async function judgeFlows(
   schema: string,
   day: string,
   flows: Array<{ flow: string; drafts: IncidentDraft[]; verdict?: 'judged' | 'not_ready' }>,
-  options: { now?: Date; policy?: IncidentPolicy; lateRows?: boolean } = {},
+  options: { now?: Date; policy?: IncidentPolicy; lateRows?: boolean; holds?: DayHolds } = {},
 ): Promise<IncidentChanges> {
   const client = await pool.connect();
   try {
@@ -211,7 +211,10 @@ export async function judgeFlows(
     const drafts = flows.flatMap((f) => f.drafts);
     const policy = options.policy ?? POLICY;
     const now = options.now ?? clockFor(day);
-    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, policy, now, { lateRows: options.lateRows ?? false });
+    const changes = await applyIncidentDrafts(client, schema, flows.map((f) => f.flow), day, drafts, policy, now, {
+      lateRows: options.lateRows ?? false,
+      ...(options.holds ? { holds: options.holds } : {}),
+    });
     await announceChanges(client, schema, changes, policy, now);
     await client.query('commit');
     return changes;

@@ -11,6 +11,7 @@ import type { IncidentDraft } from '../../checks/causes/types.js';
 import { daysBetween } from '../../service/config/definitions.js';
 import { migrate } from '../../service/db/migrate.js';
 import { quoteIdent } from '../../service/db/sql.js';
+import type { DayHolds } from '../../service/incidents/apply.js';
 import { listIncidents, loadIncident } from '../../service/incidents/store.js';
 import { createTestSchema, type TestSchema } from '../helpers/db.js';
 import { FLOW, MENTION, OWNER, POLICY, SIGNUP, clockFor, delayDraft, draft, judge, judgeFlows, outboxRows, restatedDraft } from './fixtures.js';
@@ -29,7 +30,7 @@ afterEach(async () => {
   await db.drop();
 });
 
-async function day(d: string, drafts: IncidentDraft[], options: { verdict?: 'judged' | 'not_ready'; now?: Date; lateRows?: boolean } = {}) {
+async function day(d: string, drafts: IncidentDraft[], options: { verdict?: 'judged' | 'not_ready'; now?: Date; lateRows?: boolean; holds?: DayHolds } = {}) {
   applied.push({ day: d, verdict: options.verdict ?? 'judged', drafts: drafts.map(({ fingerprint, severity, muted }) => ({ fingerprint, severity, muted })) });
   return await judge(db.pool, db.schema, d, drafts, options);
 }
@@ -228,6 +229,68 @@ describe('applyIncidentDrafts', () => {
     const last = await incidents();
     expect(last).toHaveLength(2);
     expect(last.find((i) => i.subject === 'intro')).toMatchObject({ daysSeen: 5, causeLabel: 'platform' });
+  });
+
+  // Issue 13 item 6: an open incident stays open while its series stays outside its expected band.
+  it('keeps an incident open while its series stays outside its band under the finding thresholds, in the same direction', async () => {
+    const first = draft({ day: '2026-11-18' });
+    const symptom = first.symptoms[0]!;
+    const still = (direction: 'up' | 'down', seriesKey = symptom.seriesKey): DayHolds => ({
+      outside: [{ check: 'volume', flow: FLOW, seriesKey, platform: 'android', direction, observed: 2500, expected: { low: 2700, high: 3400, center: 3000 } }],
+      calendar: [],
+    });
+    await day('2026-11-18', [first]);
+    for (const d of ['2026-11-19', '2026-11-20', '2026-11-21']) await day(d, [], { holds: still('down') });
+    expect((await incidents())[0]).toMatchObject({ status: 'open', resolvedDay: null, daysSeen: 1 });
+    // A move the other way, or another series, is no reason to stay open.
+    await day('2026-11-22', [], { holds: still('up') });
+    await day('2026-11-23', [], { holds: still('down', 'volume:people:other:android:*') });
+    expect((await incidents())[0]).toMatchObject({ status: 'resolved', resolvedDay: '2026-11-23', resolution: 'clean_days' });
+    expect((await outboxRows(db.pool, db.schema)).map((m) => [m.event, m.day])).toEqual([
+      ['opened', '2026-11-18'],
+      ['resolved', '2026-11-23'],
+    ]);
+  });
+
+  // Issue 13 item 2: a calendar day is neither a clean day nor a break in the incident's run.
+  it('counts a calendar day neither as clean nor as a break: an incident seen before and after it is one, never resolved between', async () => {
+    const holiday: DayHolds = { outside: [], calendar: [FLOW] };
+    await day('2026-11-18', [draft({ day: '2026-11-18' })]);
+    await day('2026-11-19', [], { holds: holiday });
+    await day('2026-11-20', []);
+    expect((await incidents())[0]).toMatchObject({ status: 'open', resolvedDay: null });
+    await day('2026-11-21', [draft({ day: '2026-11-21', since: '2026-11-21' })]);
+    expect(await incidents()).toHaveLength(1);
+    expect((await outboxRows(db.pool, db.schema)).map((m) => m.event)).toEqual(['opened']);
+    // Judged again, the holiday leaves the same.
+    await day('2026-11-19', [], { holds: holiday });
+    expect((await incidents())[0]).toMatchObject({ status: 'ongoing', resolvedDay: null, daysSeen: 2 });
+  });
+
+  it('keeps a platform that lost people one incident while the step that shows it changes, and takes in what that platform alone shows', async () => {
+    const onAndroid = (d: string, label: 'platform' | 'behaviour' | 'segment', subject: string, confidence: number) => {
+      const base = draft({ day: d, subject, version: '' });
+      const fingerprint = label === 'platform' ? `${FLOW}|platform|platform|android|*` : `${FLOW}|${label}|${subject}|*|*`;
+      return { ...base, fingerprint, version: null, cause: { ...base.cause, label, confidence, version: null } };
+    };
+    await day('2026-11-18', [onAndroid('2026-11-18', 'platform', 'intro', 0.9)]);
+    await day('2026-11-19', []);
+    await day('2026-11-20', []);
+    expect((await incidents())[0]).toMatchObject({ status: 'resolved' });
+    // The next sighting is on another step, and one that looks like behaviour there: the same shift.
+    await day('2026-11-21', [onAndroid('2026-11-21', 'platform', 'done', 0.85)]);
+    await day('2026-11-22', [onAndroid('2026-11-22', 'behaviour', 'rider', 0.3)]);
+    const list = await incidents();
+    expect(list).toHaveLength(1);
+    expect(list[0]).toMatchObject({ causeLabel: 'platform', daysSeen: 3, openedDay: '2026-11-18', status: 'ongoing' });
+    await day('2026-11-23', []);
+    await day('2026-11-24', []);
+    // Behaviour first, on android alone: the platform cause that explains it later joins it too.
+    await day('2026-12-10', [onAndroid('2026-12-10', 'behaviour', 'rider', 0.3)]);
+    await day('2026-12-11', [onAndroid('2026-12-11', 'platform', 'intro', 0.9)]);
+    const later = (await incidents()).filter((i) => i.openedDay === '2026-12-10');
+    expect(later).toHaveLength(1);
+    expect(later[0]).toMatchObject({ causeLabel: 'platform', daysSeen: 2 });
   });
 
   it('opens a new incident when a resolved fingerprint comes back', async () => {
