@@ -309,6 +309,18 @@ describe('seasonal detector edge cases', () => {
     expect(judgeLatest(base.slice(0, 29), { excluded }).method).toBe('weekday-median');
   });
 
+  it('stops flagging a lasting level shift once a tenth of the window is anomalous (Rosner\'s bound), and the level follows', () => {
+    // Flagged days stay out of later baselines, so without the bound a shift would be flagged for as long as it lasts.
+    const rand = prng(8);
+    const weekly = [0, 40, 55, 60, 58, 30, -120];
+    const y = Array.from({ length: 130 }, (_, t) => 1000 + (t >= 90 ? 80 : 0) + weekly[t % 7]! + 10 * normal(rand));
+    const flagged = judgeEachDay(y).filter((j) => j.anomalous).map((j) => j.index);
+    const shifted = flagged.filter((i) => i >= 90);
+    expect(shifted.length, `flagged: ${flagged.join(', ')}`).toBeGreaterThan(0);
+    expect(shifted.length, `flagged: ${flagged.join(', ')}`).toBeLessThanOrEqual(10);
+    expect(flagged.filter((i) => i >= 110), `flagged: ${flagged.join(', ')}`).toEqual([]);
+  });
+
   it('refuses to judge a missing latest day, and skips missing history days (unlike zeros)', () => {
     expect(() => judgeLatest([...base, Number.NaN])).toThrow(/no rows cannot be judged/);
     const withGap = base.slice();
