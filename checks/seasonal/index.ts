@@ -6,33 +6,31 @@
  * Method: the seasonal detector of the statistics library (`judgeLatest` in
  * checks/stats/seasonal-detector.ts: robust STL with a periodic weekly
  * seasonal on a 12-week trailing window, a local level from the last two
- * weeks, the day scored out of sample, then the generalized ESD at alpha =
- * `sensitivity`; the weekday median with less than four weeks of usable
- * history). Counts are judged on log(1 + x): their weekly pattern and their
+ * weeks, the day scored out of sample against the one-point prediction
+ * interval of the window's residuals at alpha = `sensitivity`, the chance that
+ * a clean day of one series is flagged; the weekday median with less than
+ * four weeks of usable history). Counts are judged on log(1 + x): their weekly pattern and their
  * noise are multiplicative (a quiet Sunday has a fraction of a Monday's
  * spread), so one scale on the raw counts would hide weekend collapses and
  * flag busy weekdays; rates and step times as they are. Calendar days and
  * the series' days already judged anomalous are passed as `excluded`: they
- * stay out of the fit and the level, and the ESD removes them first as the
- * outliers they are. Funnel series (rates, times) wait for the day's
+ * stay out of the fit and the level, and the generalized ESD clears them
+ * from the residuals first as the outliers they are. Funnel series (rates, times) wait for the day's
  * conversion window to pass, like the `conversion` check.
  *
- * Robust residual scoring: robustness sits in the fit, not in the ESD. The
+ * Robust residual scoring: robustness sits in the fit, not in the scale. The
  * STL's outer loop gives outlying days (past incidents, unannounced peaks, the
  * judged day itself when it is off) weights near 0, so the seasonal profile,
  * the level (a median) and hence every residual are those of the normal days;
- * the ESD then scores residuals with mean and standard deviation, recomputed
- * after removing each more extreme day, which keeps earlier outliers from
- * masking the judged one (Rosner 1983). The median/MAD variant (`robust: true`
- * of the detector) is not at its nominal level with Student-t critical values
- * (the detector's README). Measured on four clean generated demo variants
- * (seeds 7, 11, 12, 13 without incidents; 2 flows x 124 judged days each, each
- * day judged from its own past): median/MAD gave 0-3 false findings per
- * variant (drops only) and 6-12 (both directions); mean/sd gave 0 and 1-8.
+ * the generalized ESD clears earlier outliers from the residuals so they do
+ * not widen the judged day's interval (Rosner 1983), and the interval uses
+ * mean and standard deviation, whose Student t quantile is exact for normal
+ * residuals (a median/MAD scale has none; the detector's README).
  *
- * Defaults, from the same replay (a flow runs dozens of series a day, so false
- * findings add up): `sensitivity` 0.005 rather than the 0.01 first sketched
- * (no loss of incident days on the demo, fewer false findings); `direction`
+ * Defaults (a flow runs dozens of series a day, so false findings add up):
+ * `sensitivity` 0.0002, one false flag per series in 5,000 clean days before
+ * the floors, the least at which a 6 sd move on a trending series is caught
+ * 90% of the time (the detector's test; issue 15); `direction`
  * down for counts and rates: every clean-day finding left at 0.005 was a rise
  * (a busy day lifting the people of every step together, about +25%), and
  * rises on declared high days (month-start renewals) would add some 200
@@ -54,9 +52,9 @@
  * The test is always two-sided at `sensitivity`; `direction` only filters
  * which side is reported, so the band stays finite on both sides.
  *
- * Score: the detector's score, (residual - center) / scale at the ESD step
- * where the day was examined: signed, in standard deviations of the window's
- * residuals (of log(1 + x) for counts; evidence `scale` likewise).
+ * Score: the detector's score, (error - mean residual) / scale: signed, in
+ * standard deviations of the day's forecast error (of log(1 + x) for counts;
+ * evidence `scale` likewise).
  */
 import { z } from 'zod';
 import { formatCount, formatNumber, formatPercent, renderMessage } from '../messages.js';
@@ -72,8 +70,8 @@ const EXCERPT_DAYS = 28;
 const WEEKDAYS = ['Sunday', 'Monday', 'Tuesday', 'Wednesday', 'Thursday', 'Friday', 'Saturday'];
 
 export const options = z.strictObject({
-  /** Significance level of the detector's ESD test (alpha): lower reports fewer, larger departures. */
-  sensitivity: z.number().gt(0).lt(1).default(0.005),
+  /** Chance that a clean day of one series is flagged (the detector's alpha, per series and day): lower reports fewer, larger departures. */
+  sensitivity: z.number().gt(0).lt(1).default(0.0002),
   /** Which departures of counts and rates are reported: drops (default), rises or both. */
   direction: z.enum(['down', 'up', 'both']).default('down'),
   /** Which departures of median step times are reported: slower (up, default), faster (down) or both. */

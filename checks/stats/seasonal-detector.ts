@@ -8,19 +8,23 @@
  * Statistical Learning", arXiv:1704.07706, applied to a trailing window that
  * ends on the judged day: robust STL (R. B. Cleveland, W. S. Cleveland, J. E.
  * McRae and I. Terpenning 1990, J. Official Statistics 6(1):3-73) with a
- * periodic seasonal, then Rosner's generalized ESD test (Technometrics
- * 25(2):165-172, 1983). The level departs from the paper's: a local level (a
- * deseasonalised median of the last two weeks, the seasonal-naive idea of R.
- * J. Hyndman and G. Athanasopoulos 2021, "Forecasting: Principles and
- * Practice", 3rd ed., sections 3.4 and 5.2, made robust) instead of the
- * median of the whole window, and the judged day is scored out of sample.
+ * periodic seasonal, and Rosner's generalized ESD (Technometrics
+ * 25(2):165-172, 1983) to clear past outliers from the window. Two departures
+ * from the paper: a local level (a deseasonalised median of the last two
+ * weeks, the seasonal-naive idea of R. J. Hyndman and G. Athanasopoulos 2021,
+ * "Forecasting: Principles and Practice", 3rd ed., sections 3.4 and 5.2, made
+ * robust) instead of the median of the whole window; and the judged day, one
+ * new observation scored out of sample, is tested with the one-point
+ * prediction interval (G. J. Hahn and W. Q. Meeker 1991, "Statistical
+ * Intervals", chapter 4; `prediction-interval.ts`), not with the ESD's
+ * critical value for the largest of the window's values.
  *
  * Method for the latest day D:
  * 1. Window: the `historyDays` days before D (the history), and D. Missing
  *    days (NaN: no rows) take no part at all. Days in `excluded` (e.g. already
  *    judged anomalous) are kept out of the baseline (the STL fit and every
- *    local level) but keep a residual in the ESD's sample as what they are,
- *    past anomalies, which the test removes first.
+ *    local level) but keep a residual among the history residuals as what
+ *    they are, past anomalies, which step 4 clears first.
  * 2. With at least `minStlDays` usable history days (default 28: four full
  *    weeks; R's `stl` refuses fewer than two periods, and four give each
  *    weekday's cycle-subseries four points to be robust with; common practice,
@@ -31,7 +35,7 @@
  *    residual = value - seasonal - local level, for the history days and for
  *    D alike, so every residual is a one-step-ahead forecast error. A linear
  *    trend then shifts every residual by the same lag (about a week's growth),
- *    which the ESD's centre absorbs: neither a rising nor a falling series
+ *    which the residuals' mean absorbs: neither a rising nor a falling series
  *    hides a drop or a spike, and the expected value does not lag. Method
  *    'stl-esd'. With less history, the forecast is the median of the same
  *    weekday over the last 4 weeks (`weekday-baseline.ts`), each history day
@@ -41,24 +45,29 @@
  * 3. Out of sample, D's error is wider than a history residual: a history day
  *    helped fit its own weekday's seasonal (one of k values: variance about
  *    1 - 1/k of the noise's), D did not (1 + 1/k); both carry the local
- *    level's error, about pi / (2 m) for a median of m values. D's deviation
- *    from the median history residual is divided by the ratio of the two
- *    standard deviations, sqrt((1 + 1/k + pi/2m) / (1 - 1/k + pi/2m)) (about
- *    1.08 with 12 weeks), before it joins the ESD's sample. Simulated (test)
- *    this puts D's false-alarm rate at that of an exchangeable day; scored
- *    in-sample, as the paper does, D was flagged about 2.5 times as often.
- * 4. The generalized ESD (at most k = 10% of the sample, level alpha) runs on
- *    the residuals; D is anomalous when it is among the outliers found. Score,
- *    band and critical value are those of the ESD step at which D was
- *    examined (after the more extreme points were removed): score =
- *    (residual - center) / scale in the sample's units; `expected` is the
- *    value D was compared with (forecast + centre, on D's footing) and the
- *    band expected +- critical x scale, `scale` widened for D. Two
- *    consequences of the sequential test, both intended: a day just outside
- *    the band is not flagged when more than k of the window is already more
- *    extreme (a long run of "anomalies" is a changed series and stops
- *    paging); and a day can be flagged just inside its band when a later step
- *    confirms several outliers together (Rosner's rule).
+ *    level's error, about pi / (2 m) for a median of m values. The widening w
+ *    = sqrt((1 + 1/k + pi/2m) / (1 - 1/k + pi/2m)) (about 1.08 with 12 weeks)
+ *    is the ratio of the two standard deviations.
+ * 4. The history residuals are cleared of past outliers by the generalized
+ *    ESD at 0.05 (at most r = 10% of the window with D); D's error is then
+ *    compared with the one-point prediction interval of the n residuals left,
+ *    mean +- t(1 - alpha/2; n - 1) sd sqrt(w^2 + 1/n): D is anomalous when it
+ *    falls outside. So `alpha` is the chance that a clean day is flagged, per
+ *    series and day (simulated at nominal, test). Score = (D's error - mean) /
+ *    (sd sqrt(w^2 + 1/n)); `expected` the forecast plus the mean, band
+ *    expected +- critical x scale. Rosner's quota stays: D is flagged only
+ *    while fewer than r past outliers lie further out than it (its deviation
+ *    divided by w), so a run of anomalies longer than a tenth of the window is
+ *    a changed series and stops paging (its days then enter the baseline and
+ *    the level follows).
+ *
+ * Why not the ESD's own critical value for D (as before): lambda_i answers
+ * "is the largest of these n values an outlier" at level alpha, a Bonferroni
+ * split of alpha over the window: D, one pre-specified new value, was flagged
+ * with probability about alpha / n, and at alpha 0.005 with n about 78 only
+ * beyond t(1 - 0.005/156; 76) = 4.2 forecast sd, 4.6 noise sd with the
+ * widening, so a 6 sd move was caught 85-89% of the time (test). The one-point
+ * interval spends alpha on D alone.
  *
  * Scale: `transform: 'log1p'` judges log(1 + x) instead of x (counts, whose
  * weekly pattern and noise are multiplicative: a weekend at a third of a
@@ -66,20 +75,19 @@
  * band come back in the series' units (the band is then asymmetric); score and
  * scale stay on the log scale.
  *
- * Mean and standard deviation by default (S-ESD), not median and MAD (the
- * paper's S-H-ESD, `robust: true`): with Student-t critical values the MAD
- * version is not at its nominal level. Simulated on normal samples
- * (test/stats/seasonal-detector.test.ts) it declares some outlier in 14% of
- * windows of 85 and 27% of windows of 30 at alpha 0.05, against 5% for the
- * mean and standard deviation, whose sequential removal already protects
- * against masking by up to k outliers (Rosner 1983).
+ * Mean and standard deviation, not median and MAD: the Student t quantile is
+ * that of the sample standard deviation of normal residuals; a MAD scale has
+ * about 37% of its efficiency and no such quantile (with Student-t critical
+ * values the paper's median/MAD ESD declares some outlier in 14% of normal
+ * windows of 85 at alpha 0.05, test). Robustness sits in the STL fit (outlying
+ * days get weights near 0) and in clearing past outliers before the interval.
  *
  * Defaults, chosen for an on-call analyst who must trust every page:
- * - alpha 0.05 (Rosner's and the NIST handbook's level). The ESD bounds the
- *   chance of any false outlier in the whole window, so a normal day is flagged
- *   with probability of the order of alpha / window size (0.06% for a window of
- *   85). The check's `sensitivity` maps to alpha.
- * - k = 0.1: at most one day in ten of the window may be anomalous (a holiday
+ * - alpha 0.0002, the `seasonal` check's shipped sensitivity: one false flag
+ *   per series in 5,000 clean days, where the ESD at 0.005 gave about one in
+ *   16,000 (alpha / n); at 0.0002 a 6 sd drop or spike on a trending series is
+ *   caught at least 90% of the time (test).
+ * - r = 10% of the window: at most one day in ten may be anomalous (a holiday
  *   week plus a bad release fit; more than that is a regime change).
  * - 12 weeks of history: a stable weekly profile and scale. A periodic
  *   seasonal (one weekly profile per window) has the lowest false-alarm rate
@@ -92,37 +100,37 @@
  *
  * Zero scale: a window whose residuals are all equal (e.g. a count stuck at 0)
  * has no spread and nothing is flagged; a D that departs from such a history
- * is flagged (the ESD statistic of one value against identical others is the
- * largest possible). Residuals within 1e-9 of the series' size are rounding
- * noise of the decomposition and count as 0.
+ * is flagged (infinitely many standard deviations away). Residuals within
+ * 1e-9 of the series' size are rounding noise of the decomposition and count
+ * as 0.
  *
- * Complexity: O(W) for the STL, O(W m log m) for the levels and O(k W^2) for
- * the ESD, W the window length; about a millisecond for 12 weeks.
+ * Complexity: O(W) for the STL, O(W m log m) for the levels and O(r W) for
+ * clearing outliers, W the window length; about a millisecond for 12 weeks.
  *
  * Example (a completion rate in %, eight weeks of history, then a bad Monday;
- * R's stl, median, sd and qt give the same to 1e-5, test/fixtures/seasonal-esd):
+ * R's stl, median, mean, sd and qt give the same to 1e-5, test/fixtures/seasonal-esd):
  *   const profile = [55, 58, 59, 60, 57, 48, 45];
  *   const rates = Array.from({ length: 56 }, (_, t) => profile[t % 7]! + ((t * 7) % 5) * 0.4);
  *   judgeLatest([...rates, 41])
- *   // { method: 'stl-esd', observed: 41, expected: 55.47, low: 48.60, high: 62.33,
- *   //   score: -6.59, direction: 'below', anomalous: true, critical: 3.13, ... }
+ *   // { method: 'stl-esd', observed: 41, expected: 55.77, low: 52.99, high: 58.54,
+ *   //   score: -21.42, direction: 'below', anomalous: true, critical: 4.03, ... }
  */
 import type { Alternative } from './generalized-esd.js';
-import { esdCriticalValue, generalizedEsd } from './generalized-esd.js';
-import { median, robustLocationScale } from './robust.js';
+import { generalizedEsd } from './generalized-esd.js';
+import { predictOne } from './prediction-interval.js';
+import { median } from './robust.js';
 import { stl } from './stl.js';
 import { weekdayBaseline } from './weekday-baseline.js';
 
 export const SEASONAL_DEFAULTS = {
   period: 7,
-  alpha: 0.05,
+  alpha: 0.0002,
   maxAnomalies: 0.1,
   alternative: 'two-sided' as Alternative,
   historyDays: 84,
   minStlDays: 28,
   baselineWeeks: 4,
   sWindow: 'periodic' as number | 'periodic',
-  robust: false,
   levelDays: 14,
   transform: 'none' as SeasonalTransform,
 };
@@ -134,11 +142,13 @@ export type SeasonalTransform = 'none' | 'log1p';
 const MIN_BASELINE_RESIDUALS = 7;
 /** Fewest earlier same-weekday values the weekday-median method needs for D. */
 const MIN_SAME_WEEKDAY = 2;
+/** Level of the generalized ESD that clears past outliers from the history residuals (Rosner's and the NIST handbook's level). */
+const CLEANING_ALPHA = 0.05;
 
 export interface SeasonalOptions {
   /** Observations per cycle. Default 7. */
   period?: number;
-  /** Significance level of the ESD (the check's `sensitivity`). Default 0.05. */
+  /** Chance that a clean day is flagged (the check's `sensitivity`): the one-point prediction interval's level. Default 0.0002. */
   alpha?: number;
   /** k: the largest fraction of the window that may be anomalous, at most 0.49. Default 0.1. */
   maxAnomalies?: number;
@@ -152,8 +162,6 @@ export interface SeasonalOptions {
   baselineWeeks?: number;
   /** STL seasonal span. Default 'periodic' (one weekly profile over the window, as in the paper). */
   sWindow?: number | 'periodic';
-  /** Median and MAD in the ESD (the paper's S-H-ESD) instead of mean and standard deviation (S-ESD). Default false: see the file comment. */
-  robust?: boolean;
   /** Usable days before a day whose deseasonalised median is its local level. Default 14. */
   levelDays?: number;
   /** 'log1p' judges log(1 + x) (counts: multiplicative weekly pattern and noise); 'none' (default) the values as given. */
@@ -169,16 +177,16 @@ export interface SeasonalJudgement {
   observed: number;
   /** Expected value of the latest day (NaN when nothing was judged). */
   expected: number;
-  /** Band at the ESD step where the day was examined (see the file comment). */
+  /** The one-point prediction interval of the day (see the file comment, step 4). */
   low: number;
   high: number;
-  /** Score: (residual - center) / scale at that step, in standard deviations (robust units with `robust`). */
+  /** Score: (error - mean history residual) / scale, in standard deviations of the day's forecast error. */
   score: number;
   direction: 'above' | 'below' | 'none';
   anomalous: boolean;
-  /** The ESD critical value at that step. */
+  /** The interval's Student t quantile. */
   critical: number;
-  /** Scale of the residuals at that step, in the series' units. */
+  /** Standard deviation of the day's forecast error, sd sqrt(w^2 + 1/n), on the judged scale (log for 'log1p'). */
   scale: number;
   /** Usable history days the baseline was built from. */
   historyUsed: number;
@@ -200,17 +208,9 @@ function notJudged(observed: number, historyUsed: number): SeasonalJudgement {
   };
 }
 
-/** Location and scale as the ESD computes them: mean and sample standard deviation, or median and robust scale. */
-function locationScale(values: number[], robust: boolean): { center: number; scale: number } {
-  if (robust) return robustLocationScale(values);
-  const center = values.reduce((a, b) => a + b, 0) / values.length;
-  const ss = values.reduce((a, b) => a + (b - center) ** 2, 0);
-  return { center, scale: Math.sqrt(ss / (values.length - 1)) };
-}
-
 /** The judged day's out-of-sample error, made comparable with the history residuals (see the file comment, step 3). */
 interface Forecast {
-  /** Forecast of the judged day before the ESD's centre: seasonal + local level (weekday median). */
+  /** Forecast of the judged day before the history residuals' mean: seasonal + local level (weekday median). */
   value: number;
   /** Observed minus forecast. */
   residual: number;
@@ -219,50 +219,37 @@ interface Forecast {
 }
 
 /**
- * Runs the ESD on the history residuals plus the judged day's error shrunk
- * by the forecast widening about the history's median residual, and reads off
- * the judged day's verdict, and the center, scale and critical value of the
- * step at which it was examined (the step after the quota when it was never
- * reached). Expected value, band and scale are given back on the series' own
- * footing (the judged day's, widened).
+ * Judges the day's error against the one-point prediction interval of the
+ * history residuals cleared of past outliers (see the file comment, step 4).
+ * Expected value, band and scale are given back on the series' own footing.
  */
-function decide(method: SeasonalMethod, raw: number, observed: number, forecast: Forecast, history: number[], historyUsed: number, o: ResolvedOptions): SeasonalJudgement {
-  const pivot = median(history);
-  const residuals = [...history, pivot + (forecast.residual - pivot) / forecast.widening];
-  const m = residuals.length;
-  const latest = m - 1;
-  const maxOutliers = Math.min(m - 2, Math.max(1, Math.floor(o.maxAnomalies * m)));
-  const esd = generalizedEsd(residuals, { maxOutliers, alpha: o.alpha, alternative: o.alternative, robust: o.robust });
-  const step = esd.steps.find((s) => s.index === latest);
-  let center: number;
-  let scale: number;
-  let critical: number;
-  if (step !== undefined) {
-    ({ center, scale, critical } = step);
-  } else {
-    const removed = new Set(esd.steps.map((s) => s.index));
-    ({ center, scale } = locationScale(residuals.filter((_, i) => !removed.has(i)), o.robust));
-    const next = esd.steps.length + 1;
-    critical = m - next - 1 >= 1 ? esdCriticalValue(m, next, o.alpha, o.alternative) : esd.steps[esd.steps.length - 1]!.critical;
-  }
-  const anomalous = esd.outliers.includes(latest);
-  const deviation = residuals[latest]! - center;
-  const score = scale > 0 ? deviation / scale : deviation === 0 ? 0 : deviation > 0 ? Infinity : -Infinity;
-  // On the judged day's own footing: the centre it was compared with and its widened scale.
-  const expected = forecast.value + pivot + forecast.widening * (center - pivot);
-  const dayScale = forecast.widening * scale;
+function decide(method: SeasonalMethod, raw: number, forecast: Forecast, history: number[], historyUsed: number, o: ResolvedOptions): SeasonalJudgement {
+  // Rosner's quota for the window with the judged day in it: at most k of it may be anomalous.
+  const quota = Math.min(history.length - 2, Math.max(1, Math.floor(o.maxAnomalies * (history.length + 1))));
+  const outliers = new Set(generalizedEsd(history, { maxOutliers: quota, alpha: CLEANING_ALPHA }).outliers);
+  const kept = history.filter((_, i) => !outliers.has(i));
+  const interval = predictOne(kept, { alpha: o.alpha, alternative: o.alternative, widening: forecast.widening });
+  const deviation = forecast.residual - interval.center;
+  const score = interval.scale > 0 ? deviation / interval.scale : deviation === 0 ? 0 : deviation > 0 ? Infinity : -Infinity;
+  const outside = o.alternative === 'greater' ? score > interval.critical : o.alternative === 'less' ? score < -interval.critical : Math.abs(score) > interval.critical;
+  // Rosner's quota: the day is flagged only while fewer than `quota` past outliers lie further out than it (on the
+  // history's footing, its deviation over the widening); a window already holding more has changed (file comment, step 4).
+  let further = 0;
+  for (const i of outliers) if (Math.abs(history[i]! - interval.center) >= Math.abs(deviation) / forecast.widening) further++;
+  const anomalous = outside && further < quota;
+  const expected = forecast.value + interval.center;
   const back = o.transform === 'log1p' ? Math.expm1 : (x: number) => x;
   return {
     method,
     observed: raw,
     expected: back(expected),
-    low: o.alternative === 'greater' ? -Infinity : back(expected - critical * dayScale),
-    high: o.alternative === 'less' ? Infinity : back(expected + critical * dayScale),
+    low: back(forecast.value + interval.low),
+    high: back(forecast.value + interval.high),
     score,
     direction: anomalous ? (score > 0 ? 'above' : 'below') : 'none',
     anomalous,
-    critical,
-    scale: dayScale,
+    critical: interval.critical,
+    scale: interval.scale,
     historyUsed,
   };
 }
@@ -364,7 +351,7 @@ export function judgeLatest(values: ArrayLike<number>, options: SeasonalOptions 
       residual: clean(observed - daySeasonal - latest.level),
       widening: forecastWidening(sameWeekday, latest.used),
     };
-    return decide('stl-esd', raw, observed, forecast, residuals, usable, o);
+    return decide('stl-esd', raw, forecast, residuals, usable, o);
   }
 
   // Weekday medians use only earlier weeks: every residual, the judged day's too, is already out of sample.
@@ -378,7 +365,7 @@ export function judgeLatest(values: ArrayLike<number>, options: SeasonalOptions 
     if (own.used > 0) residuals.push(window[i]! - own.expected);
   }
   if (residuals.length < MIN_BASELINE_RESIDUALS) return notJudged(raw, usable);
-  return decide('weekday-median', raw, observed, { value: latest.expected, residual: observed - latest.expected, widening: 1 }, residuals, usable, o);
+  return decide('weekday-median', raw, { value: latest.expected, residual: observed - latest.expected, widening: 1 }, residuals, usable, o);
 }
 
 /**

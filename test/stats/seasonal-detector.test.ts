@@ -3,6 +3,7 @@ import { generalizedEsd } from '../../checks/stats/generalized-esd.js';
 import { seasonalHybridEsd } from '../../checks/stats/hybrid-esd.js';
 import type { OnlineJudgement } from '../../checks/stats/seasonal-detector.js';
 import { judgeEachDay, judgeLatest } from '../../checks/stats/seasonal-detector.js';
+import { seasonalCheck } from '../../checks/seasonal/index.js';
 import { NAB_PROFILES, nabScore } from './nab-score.js';
 import { normal, prng, readFixture } from './support.js';
 
@@ -18,6 +19,8 @@ const passengers = rows.map((r) => Number(r[1]));
 // NAB labels/combined_windows.json for this series, and the US federal holidays in range (5 U.S.C. 6103, dates from the statute's rules, from memory).
 const labels = JSON.parse(readFixture('nyc-taxi', 'labels.json')) as Labels;
 const DAY = 86_400_000;
+/** The `seasonal` check's shipped sensitivity: the chance that a clean day of one series is flagged. */
+const SHIPPED = seasonalCheck.options.parse({}).sensitivity;
 
 function inWindow(date: string): string | undefined {
   return labels.windows.find((w) => date >= w.from && date <= w.to)?.name;
@@ -54,27 +57,29 @@ function score(flagged: number[], title: string): { missing: string[]; farFromHo
 
 describe('seasonal detector on real data: NYC taxi passengers (NAB)', () => {
   // Passenger counts are judged on log(1 + x), as the seasonal check judges every count (checks/stats/README.md).
-  it('online at the shipped sensitivity 0.005: every required window, precision at least 0.7, recall 0.8, at most 3 unexplained flags', () => {
-    const flagged = judgeEachDay(passengers, { alpha: 0.005, transform: 'log1p' }).filter((j) => j.anomalous);
+  it(`online at the shipped sensitivity ${SHIPPED}: every required window, precision at least 0.6, recall 0.8, nothing unexplained beyond the return from summer`, () => {
+    const flagged = judgeEachDay(passengers, { alpha: SHIPPED, transform: 'log1p' }).filter((j) => j.anomalous);
     for (const j of flagged) {
       console.log(`  ${dates[j.index]} ${j.method} observed ${j.observed} expected ${j.expected.toFixed(0)} band ${j.low.toFixed(0)}..${j.high.toFixed(0)} score ${j.score.toFixed(2)} critical ${j.critical.toFixed(2)}`);
     }
     const result = score(
       flagged.map((j) => j.index),
-      'online at sensitivity 0.005 on log(1 + x) (each day from its own past, flagged days kept out of later baselines)',
+      `online at sensitivity ${SHIPPED} on log(1 + x) (each day from its own past, flagged days kept out of later baselines)`,
     );
     expect(result.missing, 'labelled windows with no flagged day').toEqual([]);
-    // Measured: 10 of 14 flagged days inside a window (0.71); 4 of 5 windows (the marathon, not required, is missed).
-    expect(result.precision).toBeGreaterThanOrEqual(0.7);
+    // Measured: 10 of 16 flagged days inside a window (0.63); 4 of 5 windows (the marathon, not required, is missed);
+    // 2014-09-05 to 09-08 are the return from summer (next test).
+    expect(result.precision).toBeGreaterThanOrEqual(0.6);
     expect(result.recall).toBeGreaterThanOrEqual(0.8);
-    expect(result.farFromHolidays.length, `unexplained flags: ${result.farFromHolidays.join(', ')}`).toBeLessThanOrEqual(3);
+    const unexplained = result.farFromHolidays.filter((day) => !(day >= '2014-09-05' && day <= '2014-09-08'));
+    expect(unexplained, `unexplained flags: ${result.farFromHolidays.join(', ')}`).toEqual([]);
   });
 
-  it("online at the detector's default 0.05: every required window, and no unexplained flag beyond the return from summer", () => {
-    const flagged = judgeEachDay(passengers, { transform: 'log1p' }).filter((j) => j.anomalous);
+  it('online at 0.001, five times the shipped rate: every required window, and no unexplained flag beyond the return from summer', () => {
+    const flagged = judgeEachDay(passengers, { alpha: 0.001, transform: 'log1p' }).filter((j) => j.anomalous);
     const result = score(
       flagged.map((j) => j.index),
-      'online at alpha 0.05 on log(1 + x)',
+      'online at alpha 0.001 on log(1 + x)',
     );
     expect(result.missing, 'labelled windows with no flagged day').toEqual([]);
     // 2014-09-05 to 09-08, four to seven days after Labor Day: the city back from summer, +19% on the same weekday a
@@ -140,50 +145,46 @@ describe('seasonal detector on trending series (simulated: level 1000, weekly pa
 
   // Issue 15: residuals against the window's median put a trending series' latest day half a window's growth away
   // (+21 here), so a rising series hid drops (caught about 1% of the time at 0.005, 5% at 0.05) and a falling one spikes.
-  it(`catches a 6 sd drop and a 6 sd spike on rising and falling series (${SERIES} series each), and does not lag`, () => {
+  // Then, with a local level, the generalized ESD's critical value (a maximum over the 85-day window, Bonferroni-like:
+  // about 4.2 forecast sd at 0.005) still caught a 6 sd move only 85-89% of the time; the day is one new observation and
+  // its critical value is now the one-point prediction interval's (Student t at the per-day level).
+  it(`catches a 6 sd drop and a 6 sd spike on rising and falling series at the shipped sensitivity ${SHIPPED} (${SERIES} series each), and does not lag`, () => {
     const rows: string[] = [];
     for (const slope of [0.5, -0.5]) {
-      const caught = { drop05: 0, spike05: 0, drop005: 0, spike005: 0 };
+      const caught = { drop: 0, spike: 0 };
       let lag = 0;
       for (let s = 0; s < SERIES; s++) {
         const y = series(slope, 1000 + s);
         const truth = 1000 + slope * 84 + weekly[84 % 7]!;
-        lag += judgeLatest(y).expected - y[84]! - (truth - y[84]!);
-        for (const [key, shift, alpha] of [['drop05', -60, 0.05], ['spike05', 60, 0.05], ['drop005', -60, 0.005], ['spike005', 60, 0.005]] as const) {
-          if (judgeLatest([...y.slice(0, 84), y[84]! + shift], { alpha }).anomalous) caught[key]++;
+        lag += judgeLatest(y, { alpha: SHIPPED }).expected - truth;
+        for (const [key, shift] of [['drop', -60], ['spike', 60]] as const) {
+          if (judgeLatest([...y.slice(0, 84), y[84]! + shift], { alpha: SHIPPED }).anomalous) caught[key]++;
         }
       }
-      const power = Object.fromEntries(Object.entries(caught).map(([k, v]) => [k, v / SERIES]));
-      rows.push(`slope ${slope}: power at alpha 0.05 drop ${power.drop05!.toFixed(3)} spike ${power.spike05!.toFixed(3)}; at 0.005 drop ${power.drop005!.toFixed(3)} spike ${power.spike005!.toFixed(3)}; mean expected - truth ${(lag / SERIES).toFixed(2)}`);
-      expect(power.drop05, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
-      expect(power.spike05, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
-      expect(power.drop005, rows.at(-1)).toBeGreaterThanOrEqual(0.75);
-      expect(power.spike005, rows.at(-1)).toBeGreaterThanOrEqual(0.75);
+      rows.push(`slope ${slope}: power drop ${(caught.drop / SERIES).toFixed(3)} spike ${(caught.spike / SERIES).toFixed(3)}; mean expected - truth ${(lag / SERIES).toFixed(2)}`);
+      expect(caught.drop / SERIES, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
+      expect(caught.spike / SERIES, rows.at(-1)).toBeGreaterThanOrEqual(0.9);
       expect(Math.abs(lag / SERIES), rows.at(-1)).toBeLessThan(3);
     }
-    console.log(`6 sd moves on trending series, ${SERIES} series per slope:\n  ${rows.join('\n  ')}`);
+    console.log(`6 sd moves on trending series at ${SHIPPED}, ${SERIES} series per slope:\n  ${rows.join('\n  ')}`);
   });
 
-  it('flags a clean latest day as often as an exchangeable day of the window (within sampling error), on flat and trending series', () => {
-    // At alpha 0.5 the rates are large enough to measure. The reference: the chance that a given one of 85 independent
-    // normal values is among the ESD's outliers (the rate the latest day should have if it were like the others).
-    const alpha = 0.5;
-    const rand = prng(4242);
-    let nominalHits = 0;
-    const NOMINAL = 20_000;
-    for (let r = 0; r < NOMINAL; r++) {
-      if (generalizedEsd(Array.from({ length: 85 }, () => normal(rand)), { maxOutliers: 8, alpha }).outliers.includes(84)) nominalHits++;
-    }
-    const nominal = nominalHits / NOMINAL;
-    const N = 2000;
-    // Binomial standard error of the difference of the two simulated rates.
-    const se = Math.sqrt(nominal * (1 - nominal) * (1 / N + 1 / NOMINAL));
-    const lines = [`exchangeable rate ${nominal.toFixed(4)} (${NOMINAL} samples); 3 standard errors of a difference at ${N} series: ${(3 * se).toFixed(4)}`];
+  it('flags a clean latest day at the nominal rate alpha (within sampling error), on flat and trending series', () => {
+    // The size of the per-day test: alpha is the chance that a clean day is flagged. 4,000 clean series per slope;
+    // three binomial standard errors of the rate at each alpha.
+    const N = 4000;
+    const lines: string[] = [];
     for (const slope of [0, 0.5]) {
-      let hits = 0;
-      for (let s = 0; s < N; s++) if (judgeLatest(series(slope, 50_000 + s), { alpha }).anomalous) hits++;
-      lines.push(`slope ${slope}: latest day flagged in ${hits} of ${N} clean series (${(hits / N).toFixed(4)})`);
-      expect(Math.abs(hits / N - nominal), lines.join('\n')).toBeLessThan(3 * se);
+      const hits = { 0.05: 0, 0.01: 0 };
+      for (let s = 0; s < N; s++) {
+        const y = series(slope, 50_000 + s);
+        for (const alpha of [0.05, 0.01] as const) if (judgeLatest(y, { alpha }).anomalous) hits[alpha]++;
+      }
+      for (const alpha of [0.05, 0.01] as const) {
+        const se = Math.sqrt((alpha * (1 - alpha)) / N);
+        lines.push(`slope ${slope}, alpha ${alpha}: latest day flagged in ${hits[alpha]} of ${N} clean series (${(hits[alpha] / N).toFixed(4)}; 3 se ${(3 * se).toFixed(4)})`);
+        expect(Math.abs(hits[alpha] / N - alpha), lines.join('\n')).toBeLessThan(3 * se);
+      }
     }
     console.log(lines.join('\n'));
   });
@@ -201,8 +202,8 @@ describe('seasonal detector on counts: log(1 + x) (multiplicative weekly pattern
   it('flags a Sunday down 40% on the log scale, which the raw scale misses', () => {
     // Index 84 is a Sunday (84 % 7 = 0): usual 600.
     const y = [...counts(21), 360];
-    expect(judgeLatest(y, { alpha: 0.005 }).anomalous).toBe(false);
-    const judged = judgeLatest(y, { alpha: 0.005, transform: 'log1p' });
+    expect(judgeLatest(y, { alpha: SHIPPED }).anomalous).toBe(false);
+    const judged = judgeLatest(y, { alpha: SHIPPED, transform: 'log1p' });
     expect(judged, JSON.stringify(judged)).toMatchObject({ anomalous: true, direction: 'below', observed: 360 });
     expect(judged.expected).toBeGreaterThan(540);
     expect(judged.expected).toBeLessThan(660);
@@ -216,12 +217,12 @@ describe('seasonal detector on counts: log(1 + x) (multiplicative weekly pattern
     let judged = 0;
     for (let seed = 1; seed <= 6; seed++) {
       const y = counts(300 + seed, 250);
-      const log = judgeEachDay(y, { alpha: 0.005, transform: 'log1p' });
+      const log = judgeEachDay(y, { alpha: SHIPPED, transform: 'log1p' });
       judged += log.filter((j) => j.method !== 'insufficient-history').length;
       logFlags += log.filter((j) => j.anomalous).length;
-      rawFlags += judgeEachDay(y, { alpha: 0.005 }).filter((j) => j.anomalous).length;
+      rawFlags += judgeEachDay(y, { alpha: SHIPPED }).filter((j) => j.anomalous).length;
     }
-    console.log(`clean multiplicative counts, ${judged} judged days at 0.005: ${logFlags} flagged on log(1 + x), ${rawFlags} on the raw scale`);
+    console.log(`clean multiplicative counts, ${judged} judged days at ${SHIPPED}: ${logFlags} flagged on log(1 + x), ${rawFlags} on the raw scale`);
     expect(logFlags / judged).toBeLessThan(0.005);
     expect(logFlags).toBeLessThanOrEqual(rawFlags);
   });
@@ -292,9 +293,10 @@ describe('seasonal detector edge cases', () => {
     const r = judgeLatest([...rates, 41]);
     expect(r.method).toBe('stl-esd');
     expect(r.anomalous).toBe(true);
-    // R: expected 55.4668, low 48.6016, high 62.3321, score -6.5920, critical 3.1282.
-    expect([r.expected, r.low, r.high].map((v) => Number(v.toFixed(1)))).toEqual([55.5, 48.6, 62.3]);
-    expect(r.score).toBeCloseTo(-6.59, 2);
+    // R: expected 55.766, low 52.991, high 58.542, score -21.43, critical 4.0272.
+    expect([r.expected, r.low, r.high].map((v) => Number(v.toFixed(1)))).toEqual([55.8, 53.0, 58.5]);
+    expect(r.score).toBeCloseTo(-21.43, 1);
+    expect(r.critical).toBeCloseTo(4.0272, 4);
   });
 
   it('judges nothing with too little history, then switches at the documented point', () => {
@@ -305,6 +307,18 @@ describe('seasonal detector edge cases', () => {
     const excluded = new Array(29).fill(false);
     excluded[3] = true;
     expect(judgeLatest(base.slice(0, 29), { excluded }).method).toBe('weekday-median');
+  });
+
+  it('stops flagging a lasting level shift once a tenth of the window is anomalous (Rosner\'s bound), and the level follows', () => {
+    // Flagged days stay out of later baselines, so without the bound a shift would be flagged for as long as it lasts.
+    const rand = prng(8);
+    const weekly = [0, 40, 55, 60, 58, 30, -120];
+    const y = Array.from({ length: 130 }, (_, t) => 1000 + (t >= 90 ? 80 : 0) + weekly[t % 7]! + 10 * normal(rand));
+    const flagged = judgeEachDay(y).filter((j) => j.anomalous).map((j) => j.index);
+    const shifted = flagged.filter((i) => i >= 90);
+    expect(shifted.length, `flagged: ${flagged.join(', ')}`).toBeGreaterThan(0);
+    expect(shifted.length, `flagged: ${flagged.join(', ')}`).toBeLessThanOrEqual(10);
+    expect(flagged.filter((i) => i >= 110), `flagged: ${flagged.join(', ')}`).toEqual([]);
   });
 
   it('refuses to judge a missing latest day, and skips missing history days (unlike zeros)', () => {
