@@ -226,6 +226,21 @@ describe('freshness: rows plumbline could not use', () => {
   });
 });
 
+describe('freshness: row limits', () => {
+  it('notes a platform whose day reached a row limit, with what it saw and kept', () => {
+    const i = input(() => undefined);
+    const overLimits = { versions: { seen: 812, kept: 500 }, param_keys: { seen: 250, kept: 200 } };
+    const status = i.status.map((row) => (row.day === DAY && row.platform === 'android' ? { ...row, overLimits } : row));
+    const findings = freshnessCheck.run({ ...i, status }, opts());
+    expect(findings.map((f) => [f.kind, f.platform, f.severity])).toEqual([['row_limits', 'android', 'note']]);
+    expect(findings[0]!.message).toBe(
+      `android sent more distinct values on ${DAY} than plumbline keeps (812 versions, 500 kept; 250 parameter keys of an event, 200 kept): those with the fewest events were left out of the rollup`,
+    );
+    expect(findings[0]!.observed).toBeCloseTo(812 / 500, 10);
+    expect(freshnessCheck.run({ ...i, status: i.status.map((row) => ({ ...row, overLimits: {} })) }, opts())).toEqual([]);
+  });
+});
+
 describe('freshness through judgeDay', () => {
   it('keeps the other checks off a held-back day and applies mutes to its findings', () => {
     const i = input(() => ({ stopAt: '14:00' }));
