@@ -159,7 +159,7 @@ async function measureRounds(
     const ctx = context(postgres.h30);
     const untracked = await readUntrackedKeys(ctx, BENCH_DAY);
     const times: Record<string, number> = {
-      counts: await timed(() => postgres.h30.eventCounts(range)),
+      counts: await timed(() => postgres.h30.eventCounts(range, watchedEvents(ctx.flows))),
       status: await timed(() => postgres.h30.hourCounts(range, watchedEvents(ctx.flows))),
       params: await timed(() => postgres.h30.paramProfiles(range, watchedEvents(ctx.flows), untracked)),
     };

@@ -107,6 +107,12 @@ export interface DayStatusRow {
    * `no_event_name` rows are set aside and not in `events`, the others are counted there repaired.
    */
   badRows?: Record<string, number>;
+  /**
+   * Row limits the day's rollup reached (service/warehouse/mapping.ts,
+   * ROW_LIMITS: event_names, versions, dimension_values, param_keys): the
+   * distinct values seen and the number kept; the rest are only counted.
+   */
+  overLimits?: Record<string, { seen: number; kept: number }>;
 }
 
 export interface CalendarDay {

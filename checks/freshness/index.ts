@@ -11,6 +11,14 @@
  *   it had none at its first rollup).
  * - `duplicates` (see duplicates.ts): events per person rose together on most
  *   watched events of a platform. Score: the median factor minus 1 (1 = doubled).
+ * - `bad_rows` (see bad-rows.ts): more than `max_bad_row_share` of a platform's
+ *   rows of the day could not be used as sent (set aside or repaired, per
+ *   reason in the day status). Score: that share. The day is still judged:
+ *   the rows that could be used are complete.
+ * - `row_limits`: the day reached a row limit on a platform (more distinct
+ *   event names, versions, dimension values or parameter keys than
+ *   `warehouse.limits` keeps; the day status says how many). Score: the
+ *   largest ratio of values seen to values kept.
  *
  * Calendar days: the note is attached, but the severity is not lowered, since
  * a holiday or campaign changes how many events come, not the shape of the
@@ -26,7 +34,8 @@ import { formatCount, formatNumber, formatPercent, renderMessage } from '../mess
 import { duration, optionsFor, percent, severity } from '../options.js';
 import { baselineExclusions, dailySeries, excerpt, runStart } from '../series.js';
 import { dayEnd, dayStart } from '../time.js';
-import type { CheckInput, CheckModule, ExcerptPoint, Finding, Readiness, Severity, WithPlatforms } from '../types.js';
+import type { CheckInput, CheckModule, DayStatusRow, ExcerptPoint, Finding, Readiness, Severity, WithPlatforms } from '../types.js';
+import { badRowShare, badRowShares, type BadRowShare } from './bad-rows.js';
 import { duplicateJudgement, mostJumped } from './duplicates.js';
 import { completeness, hourlyProfile, type Completeness } from './hours.js';
 import { restatements, type Restatement } from './restated.js';
@@ -52,6 +61,12 @@ export const options = z.strictObject({
     .describe('Rows loaded twice: events per person up by more than this share on most watched events of a platform at once.'),
   min_people: z.number().int().min(1).default(50).describe('Events with fewer people than this on the day take no part in the duplicate test.'),
   duplicates_severity: severity('warn').describe('Severity of rows loaded twice.'),
+  max_bad_row_share: percent()
+    .default(0.01)
+    .describe("Rows plumbline could not use as sent (no event name, a reserved version, text cut to length, unreadable parameters) may be at most this share of a platform's rows of the day."),
+  min_bad_rows: z.number().int().min(1).default(20).describe('Fewer bad rows than this on a platform and day are never reported, whatever their share.'),
+  bad_rows_severity: severity('warn').describe('Severity of a day with too many bad rows.'),
+  row_limits_severity: severity('note').describe('Severity of a day that reached a row limit (warehouse.limits): more distinct values than plumbline keeps.'),
 });
 type Options = z.output<typeof options>;
 
@@ -62,6 +77,8 @@ const messages = {
   restated: 'late rows restated {restatedDay} on {platform}: {before} events at the first rollup, {after} now ({change}); the day was rolled up again',
   duplicates:
     '{platform} sent {factor} times the usual events per person on {jumped} of {judged} watched events on {day} ({events}): rows loaded twice?',
+  row_limits: '{platform} sent more distinct values on {day} than plumbline keeps ({limits}): those with the fewest events were left out of the rollup',
+  bad_rows: '{share} of the rows from {platform} on {day} could not be used as sent ({rows} of {total}: {reasons}); the day was judged on the rest',
 };
 
 /** Days shown with a finding. */
@@ -189,6 +206,51 @@ function duplicatesFinding(input: CheckInput, platform: string, o: Options): Fin
   };
 }
 
+function badRowsFinding(input: CheckInput, platform: string, bad: BadRowShare, o: Options): Finding {
+  const seriesKey = `freshness:bad_rows:${platform}`;
+  const shares = badRowShares(input, platform);
+  const flagged = new Set([...(input.anomalous[seriesKey] ?? []), input.day]);
+  return {
+    ...base(input, 'bad_rows', platform, seriesKey, {
+      share: formatPercent(bad.share, 1),
+      rows: formatCount(bad.bad),
+      total: formatCount(bad.rows),
+      reasons: Object.entries(bad.reasons)
+        .map(([reason, count]) => `${formatCount(count)} ${reason.replaceAll('_', ' ')}`)
+        .join(', '),
+    }),
+    subject: { type: 'day', name: input.day },
+    metric: 'bad_row_share',
+    observed: bad.share,
+    expected: { low: 0, high: o.max_bad_row_share, center: 0 },
+    score: bad.share,
+    direction: 'up',
+    severity: o.bad_rows_severity,
+    excerpt: excerpt(input.days, shares, EXCERPT_DAYS, undefined, flagged),
+    evidence: { badRows: bad.bad, rows: bad.rows, share: bad.share, ...bad.reasons },
+  };
+}
+
+const LIMIT_WORDS: Record<string, string> = { event_names: 'event names', versions: 'versions', dimension_values: 'values of a dimension', param_keys: 'parameter keys of an event' };
+
+function rowLimitsFinding(input: CheckInput, row: DayStatusRow, reached: Array<[string, { seen: number; kept: number }]>, level: Severity): Finding {
+  const ratio = Math.max(...reached.map(([, r]) => r.seen / r.kept));
+  return {
+    ...base(input, 'row_limits', row.platform, `freshness:row_limits:${row.platform}`, {
+      limits: reached.map(([limit, r]) => `${formatCount(r.seen)} ${LIMIT_WORDS[limit] ?? limit}, ${formatCount(r.kept)} kept`).join('; '),
+    }),
+    subject: { type: 'day', name: input.day },
+    metric: 'distinct_values',
+    observed: ratio,
+    expected: { low: 0, high: 1, center: 1 },
+    score: ratio,
+    direction: 'up',
+    severity: level,
+    excerpt: excerpt(input.days, dailyEvents(input, row.platform), EXCERPT_DAYS, undefined, new Set([input.day])),
+    evidence: Object.fromEntries(reached.flatMap(([limit, r]) => [[`${limit}Seen`, r.seen], [`${limit}Kept`, r.kept]])),
+  };
+}
+
 /** Incomplete platforms of the judged day, with their options. */
 function gaps(input: CheckInput, all: WithPlatforms<Options>): Array<{ gap: Completeness; o: Options }> {
   const found: Array<{ gap: Completeness; o: Options }> = [];
@@ -231,13 +293,19 @@ function run(input: CheckInput, all: WithPlatforms<Options>): Finding[] {
     for (const r of restatements(input, platform, o.min_restated_change)) findings.push(restatedFinding(input, platform, r, o.restated_severity));
     const duplicates = duplicatesFinding(input, platform, o);
     if (duplicates) findings.push(duplicates);
+    const bad = badRowShare(input.status.find((row) => row.day === input.day && row.platform === platform));
+    if (bad && bad.bad >= o.min_bad_rows && bad.share > o.max_bad_row_share) findings.push(badRowsFinding(input, platform, bad, o));
+    const today = input.status.find((row) => row.day === input.day && row.platform === platform);
+    const reached = Object.entries(today?.overLimits ?? {});
+    if (today && reached.length > 0) findings.push(rowLimitsFinding(input, today, reached, o.row_limits_severity));
   }
   return findings;
 }
 
 export const freshnessCheck: CheckModule<typeof options> = {
   id: 'freshness',
-  description: "Holds a day back while its events are incomplete, and reports late rows that restate past days and rows the pipeline loaded twice.",
+  description:
+    "Holds a day back while its events are incomplete, and reports late rows that restate past days, rows the pipeline loaded twice and days with many rows plumbline could not use.",
   options,
   messages,
   run,

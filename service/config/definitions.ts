@@ -32,6 +32,7 @@ export function toWarehouseMapping(main: MainConfig): WarehouseMapping {
     columns: main.warehouse.columns,
     dimensions: main.warehouse.dimensions,
     platforms: main.warehouse.platforms,
+    limits: main.warehouse.limits,
   };
 }
 

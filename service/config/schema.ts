@@ -7,6 +7,7 @@
 import { z } from 'zod';
 import type { CheckModule } from '../../checks/types.js';
 import { WAREHOUSE_ENGINES } from '../warehouse/engine.js';
+import { DEFAULT_ROW_LIMITS } from '../warehouse/mapping.js';
 import { cron, duration, isoDate, timeZone } from './units.js';
 
 /** Lower-case words joined by `_` or `-`: ids that end up in URLs, metrics and messages. */
@@ -123,6 +124,15 @@ export const mainSchema = z
           .default('256MB')
           .describe('Memory for the rollup grouping, per statement (PostgreSQL work_mem syntax).'),
         statement_timeout: duration().default(1800).describe('Longest one warehouse statement may run before the engine stops it.'),
+        limits: z
+          .strictObject({
+            event_names: z.number().int().min(1).default(DEFAULT_ROW_LIMITS.event_names).describe('Distinct event names kept per platform and day (watched events always).'),
+            versions: z.number().int().min(1).default(DEFAULT_ROW_LIMITS.versions).describe('Distinct app versions kept per platform and day.'),
+            dimension_values: z.number().int().min(1).default(DEFAULT_ROW_LIMITS.dimension_values).describe('Distinct values of each dimension kept per platform and day.'),
+            param_keys: z.number().int().min(1).default(DEFAULT_ROW_LIMITS.param_keys).describe('Distinct parameter keys kept per watched event, platform and day.'),
+          })
+          .default(DEFAULT_ROW_LIMITS)
+          .describe('Most distinct values a day keeps, those with the most events; the rest are counted in the day status and left out of the rollup.'),
         tls_ca_file: z
           .string()
           .min(1)

@@ -12,8 +12,8 @@ import {
   untrackedKeysQuery,
   upsertDayStatus,
 } from '../state/rollups.js';
-import type { DayRange, FunnelRow, HourCountRow, Warehouse } from '../warehouse/engine.js';
-import { LOW_CARDINALITY } from '../warehouse/mapping.js';
+import type { DayRange, FunnelRow, HourCountRow, Limited, Warehouse } from '../warehouse/engine.js';
+import { LOW_CARDINALITY, ROW_LIMITS } from '../warehouse/mapping.js';
 import { guardProfiles } from './value-guard.js';
 
 export interface RollupContext {
@@ -79,21 +79,22 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
 
   const { warehouse } = ctx;
   const [counts, hours, params, flows] = await Promise.all([
-    timed('counts', () => warehouse.eventCounts(range)),
+    timed('counts', () => warehouse.eventCounts(range, watchedEvents(ctx.flows))),
     timed('status', () => warehouse.hourCounts(range, watchedEvents(ctx.flows))),
-    timed('params', async () => guardProfiles(await warehouse.paramProfiles(range, watchedEvents(ctx.flows), untracked), ctx.hiddenKeys ?? [])),
+    timed('params', () => warehouse.paramProfiles(range, watchedEvents(ctx.flows), untracked)),
     Promise.all(ctx.flows.map((flow) => timed(`flow ${flow.id}`, () => warehouse.flow(flow, range)))),
   ]);
 
-  const statusRows = summariseStatus(hours, range);
+  const statusRows = summariseStatus(hours, range).map((row) => ({ ...row, overLimits: overLimits([counts, params], row.platform) }));
+  const profiles = guardProfiles(params.rows, ctx.hiddenKeys ?? []);
   const funnelRows = ctx.flows.flatMap((flow, index) => unpivotFunnel(flow.id, flows[index]!.funnel));
   const stepRows: Omit<StepDayRow, 'day'>[] = ctx.flows.flatMap((flow, index) => flows[index]!.steps.map((row) => ({ flow: flow.id, ...row })));
 
   await withTransaction(ctx.state, async (client) => {
     await client.query(deleteDay(ctx.stateSchema, 'event_days', day));
-    await client.query(insertEventDays(ctx.stateSchema, day, counts));
+    await client.query(insertEventDays(ctx.stateSchema, day, counts.rows));
     await client.query(deleteDay(ctx.stateSchema, 'param_days', day));
-    await client.query(insertParamDays(ctx.stateSchema, day, params));
+    await client.query(insertParamDays(ctx.stateSchema, day, profiles));
     for (const flow of ctx.flows) {
       await client.query(deleteFlowDay(ctx.stateSchema, 'funnel_days', day, flow.id));
       await client.query(deleteFlowDay(ctx.stateSchema, 'step_days', day, flow.id));
@@ -106,12 +107,24 @@ export async function rollupDay(ctx: RollupContext, day: string): Promise<Rollup
   return {
     day,
     events: statusRows.reduce((sum, row) => sum + row.events, 0),
-    eventRows: counts.length,
-    paramRows: params.length,
+    eventRows: counts.rows.length,
+    paramRows: profiles.length,
     funnelRows: funnelRows.length,
     millis: performance.now() - started,
     statements: timings,
   };
+}
+
+/** The limits a platform reached on the day: distinct values seen (the most any statement saw) against those kept. */
+function overLimits(statements: Array<Limited<unknown>>, platform: string): Record<string, { seen: number; kept: number }> {
+  const reached: Record<string, { seen: number; kept: number }> = {};
+  for (const { seen, limits } of statements) {
+    for (const limit of ROW_LIMITS) {
+      const most = seen.get(platform)?.[limit] ?? 0;
+      if (most > limits[limit] && most > (reached[limit]?.seen ?? 0)) reached[limit] = { seen: most, kept: limits[limit] };
+    }
+  }
+  return reached;
 }
 
 /** Per platform: the day's events, the newest event, events per local hour (23, 24 or 25 of them) and bad rows per reason. */

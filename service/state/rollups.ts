@@ -109,13 +109,13 @@ export function insertFunnelDays(schema: string, day: string, rows: Omit<FunnelD
 export function upsertDayStatus(schema: string, day: string, rows: Omit<DayStatusRow, 'day' | 'previousEvents' | 'rolledUpAt'>[]): Query {
   const s = quoteIdent(schema);
   return {
-    text: `insert into ${s}.day_status as d (day, platform, events, newest_at, hourly, previous_events, rolled_up_at, bad_rows)
-      select $1::date, t.platform, t.events, t.newest_at, array(select jsonb_array_elements_text(t.hourly::jsonb)::int), null, now(), t.bad_rows::jsonb
-      from unnest($2::text[], $3::bigint[], $4::timestamptz[], $5::text[], $6::text[]) as t(platform, events, newest_at, hourly, bad_rows)
+    text: `insert into ${s}.day_status as d (day, platform, events, newest_at, hourly, previous_events, rolled_up_at, bad_rows, over_limits)
+      select $1::date, t.platform, t.events, t.newest_at, array(select jsonb_array_elements_text(t.hourly::jsonb)::int), null, now(), t.bad_rows::jsonb, t.over_limits::jsonb
+      from unnest($2::text[], $3::bigint[], $4::timestamptz[], $5::text[], $6::text[], $7::text[]) as t(platform, events, newest_at, hourly, bad_rows, over_limits)
       on conflict (day, platform) do update set
         previous_events = case when d.events <> excluded.events then d.events else d.previous_events end,
         events = excluded.events, newest_at = excluded.newest_at, hourly = excluded.hourly, rolled_up_at = excluded.rolled_up_at,
-        bad_rows = excluded.bad_rows`,
+        bad_rows = excluded.bad_rows, over_limits = excluded.over_limits`,
     values: [
       day,
       rows.map((r) => r.platform),
@@ -123,6 +123,7 @@ export function upsertDayStatus(schema: string, day: string, rows: Omit<DayStatu
       rows.map((r) => r.newestAt),
       rows.map((r) => JSON.stringify(r.hourly)),
       rows.map((r) => JSON.stringify(r.badRows)),
+      rows.map((r) => JSON.stringify(r.overLimits ?? {})),
     ],
   };
 }
@@ -180,7 +181,7 @@ export function selectFunnelDays(schema: string, from: string, to: string, flow:
 export function selectDayStatus(schema: string, from: string, to: string): Query {
   return {
     text: `select ${isoDay('day')} as day, platform, events::float8 as events, newest_at as "newestAt", hourly,
-        rolled_up_at as "rolledUpAt", previous_events::float8 as "previousEvents", bad_rows as "badRows"
+        rolled_up_at as "rolledUpAt", previous_events::float8 as "previousEvents", bad_rows as "badRows", over_limits as "overLimits"
       from ${quoteIdent(schema)}.day_status where day between $1 and $2 order by day`,
     values: [from, to],
   };

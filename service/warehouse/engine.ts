@@ -8,7 +8,7 @@
  */
 import type { EventDayRow, FunnelDayRow, ParamDayRow, StepDayRow } from '../../checks/types.js';
 import type { FlowDefinition } from '../../checks/types.js';
-import type { BadRowReason } from './mapping.js';
+import type { BadRowReason, RowLimits, SeenCounts } from './mapping.js';
 
 export const WAREHOUSE_ENGINES = ['postgres', 'clickhouse'] as const;
 export type WarehouseEngine = (typeof WAREHOUSE_ENGINES)[number];
@@ -56,16 +56,24 @@ export interface ProbeCountRow {
   events: number;
 }
 
+/** A statement's rows within the row limits, with the distinct values it saw (mapping.ts, ROW_LIMITS). */
+export interface Limited<Row> {
+  rows: Row[];
+  seen: SeenCounts;
+  /** The limits the statement applied. */
+  limits: RowLimits;
+}
+
 export interface Warehouse {
   readonly engine: WarehouseEngine;
   /** Start and end of business day `day` (ISO date) in the IANA `timezone`. */
   dayBounds(day: string, timezone: string): Promise<DayRange>;
-  /** Events and distinct people per event x platform x version, x platform, and x dimension value. */
-  eventCounts(range: DayRange): Promise<EventCountRow[]>;
+  /** Events and distinct people per event x platform x version, x platform, and x dimension value; `keep`: events kept whatever the limit on event names. */
+  eventCounts(range: DayRange, keep: string[]): Promise<Limited<EventCountRow>>;
   /** The freshness status: events per platform and local hour, the newest event, and bad rows (parameter reasons counted on `events`). */
   hourCounts(range: DayRange, events: string[]): Promise<HourCountRow[]>;
   /** Parameter profiles of the watched events; `untrackedKeys` ("event.key") are counted without grouping their values. */
-  paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]): Promise<ParamProfileRow[]>;
+  paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]): Promise<Limited<ParamProfileRow>>;
   /** The flow's ordered funnel for the cohort entering on the day, and its step counts in any order. */
   flow(flow: FlowDefinition, range: DayRange): Promise<FlowRows>;
   /** Event counts per platform of past days, to spot late rows that restate them. */

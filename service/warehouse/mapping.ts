@@ -10,6 +10,29 @@ export interface WarehouseMapping {
   dimensions: string[];
   /** Our platform name -> raw values in the platform column. */
   platforms: Record<string, string[]>;
+  /** Most distinct values a day's rollup keeps (ROW_LIMITS); DEFAULT_ROW_LIMITS when absent. */
+  limits?: RowLimits;
+}
+
+/**
+ * What bounds the rollup's rows, per platform and day: distinct event names
+ * (watched events always kept), app versions, values of each dimension, and
+ * parameter keys of one watched event. The values with the most events are
+ * kept; the rest are left out of the per-value rows (an event left out is
+ * left out of every row) and only counted, so a day of hostile values
+ * cannot fill the memory of the service or the state schema.
+ */
+export const ROW_LIMITS = ['event_names', 'versions', 'dimension_values', 'param_keys'] as const;
+export type RowLimit = (typeof ROW_LIMITS)[number];
+export type RowLimits = Record<RowLimit, number>;
+/** Common practice, not from a source: tens of times what a tracking plan of an app holds. */
+export const DEFAULT_ROW_LIMITS: RowLimits = { event_names: 5000, versions: 500, dimension_values: 1000, param_keys: 200 };
+
+/** Distinct values seen per platform, for each limit its statement bounds (the most of any one dimension or event). */
+export type SeenCounts = Map<string, Partial<Record<RowLimit, number>>>;
+
+export function limitsOf(mapping: WarehouseMapping): RowLimits {
+  return mapping.limits ?? DEFAULT_ROW_LIMITS;
 }
 
 /** Platform value used for rows whose raw platform is not mapped in the config. */

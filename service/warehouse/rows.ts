@@ -4,12 +4,15 @@
  * integers as numbers), turned into the seam's rows. Both dialects name
  * their columns alike, so one conversion serves both.
  */
-import { BAD_ROW_REASONS, type BadRowReason } from './mapping.js';
-import type { EventCountRow, FlowRows, FunnelRow, HourCountRow, ParamProfileRow, ProbeCountRow, StepCountRow } from './engine.js';
+import { BAD_ROW_REASONS, limitsOf, type BadRowReason, type RowLimit, type SeenCounts, type WarehouseMapping } from './mapping.js';
+import type { EventCountRow, FlowRows, FunnelRow, HourCountRow, Limited, ParamProfileRow, ProbeCountRow, StepCountRow } from './engine.js';
 
 type Count = string | number;
 
-export interface RawCountRow {
+/** Distinct values the statement saw on the row's platform, per limit (null: none of that kind). */
+export type RawSeen = Partial<Record<RowLimit, Count | null>>;
+
+export interface RawCountRow extends RawSeen {
   event: string;
   platform: string;
   version: string;
@@ -27,7 +30,7 @@ export type RawHourRow = {
   newest_at: Date | number | null;
 } & Record<BadRowReason, Count>;
 
-export interface RawParamRow {
+export interface RawParamRow extends RawSeen {
   event: string;
   platform: string;
   version: string;
@@ -69,6 +72,20 @@ export interface RawProbeRow {
   day: string;
   platform: string;
   events: Count;
+}
+
+/** The rows converted, and the largest count of distinct values per platform and limit the rows carry. */
+export function limited<Raw extends RawSeen & { platform: string }, Row>(raw: Raw[], mapping: WarehouseMapping, bounded: readonly RowLimit[], convert: (row: Raw) => Row): Limited<Row> {
+  const seen: SeenCounts = new Map();
+  for (const row of raw) {
+    const platform = seen.get(row.platform) ?? {};
+    for (const limit of bounded) {
+      const count = row[limit];
+      if (count !== null && count !== undefined) platform[limit] = Math.max(platform[limit] ?? 0, Number(count));
+    }
+    seen.set(row.platform, platform);
+  }
+  return { rows: raw.map(convert), seen, limits: limitsOf(mapping) };
 }
 
 export function toEventCountRow(row: RawCountRow): EventCountRow {

@@ -195,6 +195,52 @@ describe('freshness: restated days and duplicate rows', () => {
   });
 });
 
+describe('freshness: rows plumbline could not use', () => {
+  // The 1% share and the floor of 20 rows are the check's defaults (common practice, not from a source).
+  /** The judged day of web with `bad` rows by reason; 10,000 events otherwise. */
+  function badInput(bad: Record<string, number>): CheckInput {
+    const i = input(() => undefined);
+    const status = i.status.map((row) => (row.day === DAY && row.platform === 'web' ? { ...row, badRows: bad } : row));
+    return { ...i, status };
+  }
+
+  it('reports a platform whose bad rows exceed max_bad_row_share of its rows, without holding the day back', () => {
+    // 150 set aside (not in events) and 60 repaired: 210 of events + 150 rows.
+    const i = badInput({ no_event_name: 150, reserved_version: 60, long_text: 0 });
+    const events = i.status.find((row) => row.day === DAY && row.platform === 'web')!.events;
+    const findings = freshnessCheck.run(i, opts());
+    expect(findings.map((f) => [f.kind, f.platform, f.severity]), dump(i)).toEqual([['bad_rows', 'web', 'warn']]);
+    expect(findings[0]!.observed).toBeCloseTo(210 / (events + 150), 10);
+    expect(findings[0]!.message).toBe(
+      `${((100 * 210) / (events + 150)).toFixed(1)}% of the rows from web on ${DAY} could not be used as sent (210 of ${(events + 150).toLocaleString('en-US')}: 150 no event name, 60 reserved version); the day was judged on the rest`,
+    );
+    expect(findings[0]!.seriesKey).toBe('freshness:bad_rows:web');
+    expect(freshnessCheck.gate!(i, opts())).toEqual({ ready: true });
+  });
+
+  it('stays quiet at or under the share, under the floor, and with the share raised', () => {
+    expect(freshnessCheck.run(badInput({ long_text: 50 }), opts())).toEqual([]);
+    expect(freshnessCheck.run(badInput({ long_text: 19 }), opts({ max_bad_row_share: 0.001 }))).toEqual([]);
+    expect(freshnessCheck.run(badInput({ long_text: 500 }), opts({ max_bad_row_share: 0.1 }))).toEqual([]);
+    expect(freshnessCheck.run(badInput({ long_text: 500 }), opts({}, { web: { bad_rows_severity: 'note' } })).map((f) => f.severity)).toEqual(['note']);
+  });
+});
+
+describe('freshness: row limits', () => {
+  it('notes a platform whose day reached a row limit, with what it saw and kept', () => {
+    const i = input(() => undefined);
+    const overLimits = { versions: { seen: 812, kept: 500 }, param_keys: { seen: 250, kept: 200 } };
+    const status = i.status.map((row) => (row.day === DAY && row.platform === 'android' ? { ...row, overLimits } : row));
+    const findings = freshnessCheck.run({ ...i, status }, opts());
+    expect(findings.map((f) => [f.kind, f.platform, f.severity])).toEqual([['row_limits', 'android', 'note']]);
+    expect(findings[0]!.message).toBe(
+      `android sent more distinct values on ${DAY} than plumbline keeps (812 versions, 500 kept; 250 parameter keys of an event, 200 kept): those with the fewest events were left out of the rollup`,
+    );
+    expect(findings[0]!.observed).toBeCloseTo(812 / 500, 10);
+    expect(freshnessCheck.run({ ...i, status: i.status.map((row) => ({ ...row, overLimits: {} })) }, opts())).toEqual([]);
+  });
+});
+
 describe('freshness through judgeDay', () => {
   it('keeps the other checks off a held-back day and applies mutes to its findings', () => {
     const i = input(() => ({ stopAt: '14:00' }));

@@ -111,8 +111,13 @@ const cases: Case[] = [
     name: 'a misspelt nested key',
     changes: { [MAIN]: replace('events_table:', 'event_table:') },
     problems: [
-      'config/plumbline.yaml:5:3 warehouse.event_table: expected one of the keys engine, url, events_table, columns, dimensions, platforms, work_mem, statement_timeout, tls_ca_file, embedded_dir, found unknown key "event_table" (did you mean events_table?)',
+      'config/plumbline.yaml:5:3 warehouse.event_table: expected one of the keys engine, url, events_table, columns, dimensions, platforms, work_mem, statement_timeout, limits, tls_ca_file, embedded_dir, found unknown key "event_table" (did you mean events_table?)',
     ],
+  },
+  {
+    name: 'a row limit of none',
+    changes: { [MAIN]: replace('  events_table: transit.events', '  limits:\n    versions: 0\n  events_table: transit.events') },
+    problems: ['config/plumbline.yaml:6:15 warehouse.limits.versions: expected a number at least 1, found number 0'],
   },
   {
     name: 'an unknown warehouse engine',

@@ -275,6 +275,13 @@ export async function createPagesScenario(): Promise<PagesScenario> {
       ('judge', '2026-03-06', 'monthly_pass', 'failed', 'test', '2026-03-07T08:30:05Z', '2026-03-07T08:30:05.3Z', $1)`,
     values: [FAILED_RUN_ERROR],
   });
+  // A rolled-up day with rows set aside and repaired, and a row limit reached.
+  await rt.state.query({
+    text: `insert into ${s}.day_status (day, platform, events, newest_at, hourly, rolled_up_at, bad_rows, over_limits)
+      values ('2026-03-06', 'ios', 9120, null, '{}', now(), '{"no_event_name": 31, "reserved_version": 4}', '{"versions": {"seen": 812, "kept": 500}}')
+      on conflict (day, platform) do update set bad_rows = excluded.bad_rows, over_limits = excluded.over_limits, events = excluded.events`,
+    values: [],
+  });
   const now = clockFor('2026-03-06', 1);
   const claimed = await claimNext(rt.state, schema, now, 60_000, 'pages-test');
   if (!claimed) throw new Error('the scenario should have queued chat messages');

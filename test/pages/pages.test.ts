@@ -104,6 +104,12 @@ describe('human pages, rendered by their handlers', () => {
     expect(outbox).toMatch(/<h3 id="waiting">Waiting to be sent \([1-9]\d*\)<\/h3>/);
   });
 
+  it('shows the rows of recent days that were set aside or repaired, and the row limits reached', async () => {
+    const status = section((await get(router, '/')).text, 'day-status');
+    expect(status).toContain('Rows not used as sent');
+    expect(status).toMatch(/2026-03-06.*?ios.*?<td class="num">9,120<\/td><td class="num">31<\/td><td class="num">4<\/td><td class="num">0<\/td><td class="num">0<\/td><td>versions: 812 seen, 500 kept<\/td>/s);
+  });
+
   it('never lets a hostile event name become markup', async () => {
     for (const path of ['/', `/incidents/${scenario.ids.hostile}`]) {
       const page = (await get(router, path)).text;

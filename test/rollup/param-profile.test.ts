@@ -70,7 +70,7 @@ describe.each(TEST_ENGINES)('parameter profile rollup on %s', (engine) => {
     await migrate(state.pool, state.schema);
     await warehouse.insert(DATASET);
     const range = await warehouse.warehouse.dayBounds(DAY, TZ);
-    rows = await warehouse.warehouse.paramProfiles(range, ['purchase', 'scan'], ['purchase.session']);
+    rows = (await warehouse.warehouse.paramProfiles(range, ['purchase', 'scan'], ['purchase.session'])).rows;
   });
   afterAll(async () => {
     await warehouse?.drop();

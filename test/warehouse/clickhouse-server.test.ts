@@ -81,9 +81,9 @@ describe.skipIf(unavailable !== undefined)(`a ClickHouse server (${IMAGE}) throu
 
   it('gives the PostgreSQL day bounds, event counts, parameter profiles and hourly counts', async () => {
     expect(await server.dayBounds('2026-03-08', 'America/New_York')).toEqual(range);
-    expect(sorted(await server.eventCounts(range))).toEqual(sorted(await postgres.warehouse.eventCounts(range)));
-    expect(sorted(await server.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], []))).toEqual(
-      sorted(await postgres.warehouse.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], [])),
+    expect(sorted((await server.eventCounts(range, [])).rows)).toEqual(sorted((await postgres.warehouse.eventCounts(range, [])).rows));
+    expect(sorted((await server.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], [])).rows)).toEqual(
+      sorted((await postgres.warehouse.paramProfiles(range, ['screen_shown', 'pass_purchase_result'], [])).rows),
     );
     expect(sorted(await server.hourCounts(range, ['screen_shown']))).toEqual(sorted(await postgres.warehouse.hourCounts(range, ['screen_shown'])));
   });

@@ -59,7 +59,7 @@ describe('the PostgreSQL warehouse reads only', () => {
     const warehouse = new PostgresWarehouse(guarded, testMapping(db.schema), { workMem: '64MB', statementTimeoutSeconds: 60 });
     const range = await warehouse.dayBounds('2026-06-10', 'UTC');
     expect(range.hi.getTime() - range.lo.getTime()).toBe(86_400_000);
-    await warehouse.eventCounts(range);
+    await warehouse.eventCounts(range, []);
     await warehouse.hourCounts(range, ['screen_shown']);
     await warehouse.paramProfiles(range, ['screen_shown'], []);
     await warehouse.flow(flow, range);

@@ -26,7 +26,7 @@ import {
   SENTENCE_MAX,
   severityText,
 } from './layout.js';
-import { latestVerdictsQuery, recentRunsQuery, type LatestVerdict, type RunRow } from './queries.js';
+import { dayStatusNotesQuery, latestVerdictsQuery, recentRunsQuery, type DayStatusNote, type LatestVerdict, type RunRow } from './queries.js';
 import type { PagesContext } from './context.js';
 
 /** Resolved incidents stay on the overview this many days after the newest judged day. */
@@ -35,6 +35,8 @@ const RUNS_SHOWN = 12;
 const FAILURES_SHOWN = 10;
 const OUTBOX_SHOWN = 50;
 const RESOLVED_SHOWN = 20;
+/** Rolled-up days whose rows plumbline could not use, or whose row limits were reached, are listed this far back. */
+const STATUS_DAYS = 7;
 
 interface ListedIncident {
   incident: Incident;
@@ -52,6 +54,8 @@ export interface Overview {
   /** The newest failed or abandoned runs, however old: a replay of many days must not push them off the page. */
   failures: RunRow[];
   outbox: { counts: Record<OutboxState, number>; parked: OutboxMessage[]; waiting: OutboxMessage[] };
+  /** Platforms of the newest rolled-up days with bad rows or a row limit reached. */
+  dayStatus: DayStatusNote[];
   timezone: string;
   demo: boolean;
 }
@@ -86,6 +90,7 @@ export async function loadOverview(ctx: PagesContext): Promise<Overview> {
     listOutbox(db, schema, STUCK_STATES, OUTBOX_SHOWN),
     listOutbox(db, schema, ['pending', 'sending'], OUTBOX_SHOWN),
   ]);
+  const { rows: dayStatus } = await db.query<DayStatusNote>(dayStatusNotesQuery(schema, STATUS_DAYS));
   const titles = new Map(ctx.rt.config.flows.map(({ config }) => [config.flow, config.title]));
   return {
     flows: ctx.rt.flows.map((flow) => ({
@@ -102,6 +107,7 @@ export async function loadOverview(ctx: PagesContext): Promise<Overview> {
     runs,
     failures,
     outbox: { counts, parked, waiting },
+    dayStatus,
     timezone: ctx.rt.timezone,
     demo: ctx.status.demo,
   };
@@ -173,6 +179,30 @@ ${dataTable({
       dayText(incident.resolvedDay),
       escapeHtml(incident.resolution === 'late_data' ? 'late data' : incident.resolution === 'withdrawn' ? 'withdrawn' : 'clean days'),
       clientText(causeWords(incident.causeLabel)),
+    ],
+  })),
+})}`;
+}
+
+const LIMIT_WORDS: Record<string, string> = { event_names: 'event names', versions: 'versions', dimension_values: 'values of a dimension', param_keys: 'parameter keys of an event' };
+
+function dayStatusSection(o: Overview): string {
+  const header = `<h2 id="day-status">Rows not used as sent</h2>`;
+  if (o.dayStatus.length === 0) return `${header}${none(`Every row of the last ${STATUS_DAYS} rolled-up days was used as sent, within the row limits.`)}`;
+  const count = (n: number) => escapeHtml(formatCount(n));
+  return `${header}
+${dataTable({
+  caption: `Rows of the last ${STATUS_DAYS} rolled-up days that plumbline set aside (no event name) or repaired (a reserved version, text cut to length, unreadable parameters), and the row limits (warehouse.limits) reached: the values with the fewest events were counted, not rolled up.`,
+  columns: [{ label: 'day' }, { label: 'platform' }, { label: 'events', numeric: true }, { label: 'no event name', numeric: true }, { label: 'reserved version', numeric: true }, { label: 'long text', numeric: true }, { label: 'unreadable parameters', numeric: true }, { label: 'row limits reached' }],
+  rows: o.dayStatus.map((row) => ({
+    cells: [
+      dayText(row.day),
+      clientText(row.platform),
+      count(row.events),
+      ...['no_event_name', 'reserved_version', 'long_text', 'unreadable_params'].map((reason) => count(row.badRows[reason] ?? 0)),
+      Object.keys(row.overLimits).length === 0
+        ? '<span class="muted">-</span>'
+        : escapeHtml(Object.entries(row.overLimits).map(([limit, r]) => `${LIMIT_WORDS[limit] ?? limit}: ${formatCount(r.seen)} seen, ${formatCount(r.kept)} kept`).join('; ')),
     ],
   })),
 })}`;
@@ -283,6 +313,7 @@ export function renderOverview(o: Overview): string {
     flowsSection(o),
     openSection(o),
     resolvedSection(o),
+    dayStatusSection(o),
     runsSection(o),
     outboxSection(o),
   ].join('\n');

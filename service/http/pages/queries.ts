@@ -45,6 +45,30 @@ export function recentRunsQuery(schema: string, limit: number, failedOnly = fals
   };
 }
 
+export interface DayStatusNote {
+  day: Day;
+  platform: string;
+  /** Events of the day, less the rows set aside. */
+  events: number;
+  /** Rows per reason (service/warehouse/mapping.ts, BAD_ROW_REASONS). */
+  badRows: Record<string, number>;
+  /** Row limits reached: distinct values seen and kept (ROW_LIMITS). */
+  overLimits: Record<string, { seen: number; kept: number }>;
+}
+
+/** Platforms of the newest `days` rolled-up days that had rows plumbline could not use or reached a row limit, newest first. */
+export function dayStatusNotesQuery(schema: string, days: number): Query {
+  const s = quoteIdent(schema);
+  return {
+    text: `select to_char(day, 'YYYY-MM-DD') as day, platform, events::float8 as events, bad_rows as "badRows", over_limits as "overLimits"
+      from ${s}.day_status
+      where day >= (select max(day) from ${s}.day_status) - ($1::int - 1)
+        and (exists (select 1 from jsonb_each_text(bad_rows) b where b.value::bigint > 0) or over_limits <> '{}'::jsonb)
+      order by day desc, platform collate "C"`,
+    values: [days],
+  };
+}
+
 /** The measure a per-version split shows; mirrors the cause analysis's measures (checks/causes/measures.ts). */
 /** Numerator and denominator of a measure on one day for one app version ('*': the platform total). */
 export interface SplitRow {

@@ -7,7 +7,7 @@ import type { FlowDefinition } from '../../../checks/types.js';
 import { quoteQualified } from '../../db/sql.js';
 import type { DayRange, Warehouse } from '../engine.js';
 import type { WarehouseMapping } from '../mapping.js';
-import { toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
+import { limited, toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
 import type { EventsTable } from './columns.js';
 import type { ClickHouseConnection } from './connection.js';
 import { funnelQuery, stepCountsQuery } from './flow.js';
@@ -27,9 +27,9 @@ export class ClickHouseWarehouse implements Warehouse {
     return { lo: new Date(row!.lo), hi: new Date(row!.hi) };
   }
 
-  async eventCounts(range: DayRange) {
-    const rows = await this.connection.query<RawCountRow>(eventCountsQuery(await this.eventsTable(), range));
-    return rows.map(toEventCountRow);
+  async eventCounts(range: DayRange, keep: string[]) {
+    const rows = await this.connection.query<RawCountRow>(eventCountsQuery(await this.eventsTable(), range, keep));
+    return limited(rows, this.mapping, ['event_names', 'versions', 'dimension_values'], toEventCountRow);
   }
 
   async hourCounts(range: DayRange, events: string[]) {
@@ -39,7 +39,7 @@ export class ClickHouseWarehouse implements Warehouse {
 
   async paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]) {
     const rows = await this.connection.query<RawParamRow>(paramProfileQuery(await this.eventsTable(), range, events, untrackedKeys));
-    return rows.map(toParamProfileRow);
+    return limited(rows, this.mapping, ['param_keys', 'versions'], toParamProfileRow);
   }
 
   async flow(flow: FlowDefinition, range: DayRange) {

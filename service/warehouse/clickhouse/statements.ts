@@ -12,7 +12,7 @@
  * at each occurrence (jsonb keeps the last), and the JSON type drops keys
  * whose value is null, so with it those never show up as 'null'.
  */
-import { BAD_ROW_REASONS, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent } from '../mapping.js';
+import { BAD_ROW_REASONS, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, limitsOf, untrackedByEvent } from '../mapping.js';
 import type { DayRange } from '../engine.js';
 import { Columns, cutText, type EventsTable } from './columns.js';
 import { ChParams, type ChQuery } from './sql.js';
@@ -48,8 +48,12 @@ from (select ${midnight(date)} as lo_local, ${midnight(`${date} + 1`)} as hi_loc
  * event x platform x version with exact distinct people (`uniqExact`), and
  * per event x platform x person carrying the person's lowest dimension
  * values, from which the all-versions and per-value rows are summed.
+ *
+ * Within the row limits (mapping.ts, ROW_LIMITS), per platform: the event
+ * names (those in `keep` first), versions and values of each dimension with
+ * the most events; each row carries how many distinct ones its platform had.
  */
-export function eventCountsQuery(table: EventsTable, range: DayRange): ChQuery {
+export function eventCountsQuery(table: EventsTable, range: DayRange, keep: string[] = []): ChQuery {
   const p = new ChParams();
   const c = new Columns(table, p);
   const dims = dimensionAliases(table.mapping);
@@ -72,7 +76,33 @@ select event, platform, cell.1 as version, cell.2 as dimension, cell.3 as value,
 from per_person
 array join [${cells.join(', ')}] as cell
 group by event, platform, version, dimension, value`;
-  return { text, params: p.values };
+  const limits = limitsOf(table.mapping);
+  const kept = p.add(keep, 'Array(String)');
+  // Distinct values are counted before the limits apply, so the filter stands outside the counting.
+  const limitedText = `
+select event, platform, version, dimension, value, events, people, event_names, versions, dimension_values
+from (
+  select *,
+         max(event_rank) over (partition by platform) as event_names, max(version_rank) over (partition by platform) as versions,
+         max(value_rank) over (partition by platform) as dimension_values
+  from (
+  select *,
+         dense_rank() over (partition by platform order by has(${kept}, event) desc, event_total desc, event) as event_rank,
+         if(version != '*' and dimension = '', dense_rank() over (partition by platform, version != '*' and dimension = '' order by version_total desc, version), NULL) as version_rank,
+         if(dimension != '', dense_rank() over (partition by platform, dimension order by value_total desc, value), NULL) as value_rank
+  from (
+    select *,
+           sumIf(events, version = '*' and dimension = '') over (partition by platform, event) as event_total,
+           sumIf(events, version != '*' and dimension = '') over (partition by platform, version) as version_total,
+           sum(events) over (partition by platform, dimension, value) as value_total
+    from (${text}
+    )
+  )
+  )
+)
+where (event_rank <= ${p.add(limits.event_names, 'UInt64')} or has(${kept}, event))
+  and coalesce(version_rank, 1) <= ${p.add(limits.versions, 'UInt64')} and coalesce(value_rank, 1) <= ${p.add(limits.dimension_values, 'UInt64')}`;
+  return { text: limitedText, params: p.values };
 }
 
 /**
@@ -133,7 +163,9 @@ function jsonTypeOf(raw: string): string {
  * carrying the key with that type, smallest and largest number, numbers with
  * a fraction, and for keys with few distinct values the top values (most
  * events first, then byte order). Keys in `untrackedKeys` ("event.key") are
- * counted without grouping their values.
+ * counted without grouping their values. Within the row limits: per event
+ * and platform the keys, per platform the versions, with the most events
+ * (for versions: key occurrences); each row carries how many its platform had.
  */
 export function paramProfileQuery(table: EventsTable, range: DayRange, events: string[], untrackedKeys: string[]): ChQuery {
   const p = new ChParams();
@@ -155,7 +187,24 @@ with kv as (
 ${rawGroupedCte()},
 ${groupedCte(c)}
 ${profileRows()}`;
-  return { text, params: p.values };
+  const limits = limitsOf(table.mapping);
+  const limitedText = `
+select event, platform, version, key, json_type, events, distinct_values, min_number, max_number, fractional, top_values, param_keys, versions
+from (
+  select *, max(key_rank) over (partition by platform) as param_keys, max(version_rank) over (partition by platform) as versions
+  from (
+  select *,
+         dense_rank() over (partition by event, platform order by key_total desc, key) as key_rank,
+         dense_rank() over (partition by platform order by version_total desc, version) as version_rank
+  from (
+    select *, sum(events) over (partition by event, platform, key) as key_total, sum(events) over (partition by platform, version) as version_total
+    from (${text}
+    )
+  )
+  )
+)
+where key_rank <= ${p.add(limits.param_keys, 'UInt64')} and version_rank <= ${p.add(limits.versions, 'UInt64')}`;
+  return { text: limitedText, params: p.values };
 }
 
 function rawGroupedCte(): string {

@@ -8,7 +8,7 @@ import type { Query } from '../../db/sql.js';
 import { withReadOnly } from '../../db/tx.js';
 import type { DayRange, Warehouse } from '../engine.js';
 import type { WarehouseMapping } from '../mapping.js';
-import { toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
+import { limited, toEventCountRow, toFlowRows, toHourCountRow, toParamProfileRow, toProbeCountRow, type RawCountRow, type RawFlowRow, type RawHourRow, type RawParamRow, type RawProbeRow } from '../rows.js';
 import { flowQuery } from './flow.js';
 import { dayBoundsQuery, eventCountsQuery, hourCountsQuery, paramProfileQuery, probeCountsQuery } from './statements.js';
 
@@ -33,8 +33,8 @@ export class PostgresWarehouse implements Warehouse {
     return (await this.read<DayRange>(dayBoundsQuery(day, timezone)))[0]!;
   }
 
-  async eventCounts(range: DayRange) {
-    return (await this.read<RawCountRow>(eventCountsQuery(this.mapping, range))).map(toEventCountRow);
+  async eventCounts(range: DayRange, keep: string[]) {
+    return limited(await this.read<RawCountRow>(eventCountsQuery(this.mapping, range, keep)), this.mapping, ['event_names', 'versions', 'dimension_values'], toEventCountRow);
   }
 
   async hourCounts(range: DayRange, events: string[]) {
@@ -42,7 +42,7 @@ export class PostgresWarehouse implements Warehouse {
   }
 
   async paramProfiles(range: DayRange, events: string[], untrackedKeys: string[]) {
-    return (await this.read<RawParamRow>(paramProfileQuery(this.mapping, range, events, untrackedKeys))).map(toParamProfileRow);
+    return limited(await this.read<RawParamRow>(paramProfileQuery(this.mapping, range, events, untrackedKeys)), this.mapping, ['param_keys', 'versions'], toParamProfileRow);
   }
 
   async flow(flow: FlowDefinition, range: DayRange) {

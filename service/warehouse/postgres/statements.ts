@@ -9,7 +9,7 @@
  */
 import { Params, type Query } from '../../db/sql.js';
 import type { DayRange } from '../engine.js';
-import { BAD_ROW_REASONS, DOUBLE_UNDERFLOW, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, untrackedByEvent, type WarehouseMapping } from '../mapping.js';
+import { BAD_ROW_REASONS, DOUBLE_UNDERFLOW, LOW_CARDINALITY, TOP_VALUES, VALUE_MAX_LENGTH, dimensionAliases, limitsOf, untrackedByEvent, type WarehouseMapping } from '../mapping.js';
 import { Columns, cutText } from './columns.js';
 
 /** Start and end of business day `day` in `timezone`: 23, 24 or 25 hours apart. */
@@ -34,14 +34,53 @@ export function dayBoundsQuery(day: string, timezone: string): Query {
  * from several versions that day (an upgrade, a second device) counts once
  * under each: only their rows are grouped again, from a second read of the
  * day that PostgreSQL skips when there are no such people.
+ *
+ * Within the row limits (mapping.ts, ROW_LIMITS), per platform: the event
+ * names (those in `keep` first), versions and values of each dimension with
+ * the most events; each row carries how many distinct ones its platform had.
  */
-export function eventCountsQuery(mapping: WarehouseMapping, range: DayRange): Query {
+export function eventCountsQuery(mapping: WarehouseMapping, range: DayRange, keep: string[] = []): Query {
   const p = new Params();
   const day = new CountsParts(mapping, p, range);
+  const limits = limitsOf(mapping);
   const text = `
-with ${[day.perPersonCte(), day.cellsCte(), day.severalVersionsCte()].join(',\n')}
-${day.countRows()}`;
+with ${[day.perPersonCte(), day.cellsCte(), day.severalVersionsCte(), `counted as (\n${day.countRows()}\n)`, countTotalsCte(), countRanksCte(p, keep), seenCte('ranked', ['event_rank', 'version_rank', 'value_rank'])].join(',\n')}
+select event, platform, version, dimension, value, events, people, event_names, versions, dimension_values
+from seen
+where (event_rank <= ${p.add(limits.event_names)} or event = any(${p.add(keep)}::text[]))
+  and coalesce(version_rank, 1) <= ${p.add(limits.versions)} and coalesce(value_rank, 1) <= ${p.add(limits.dimension_values)}`;
   return { text, values: p.values };
+}
+
+/** Events per event, per version and per dimension value of each platform: what the limits rank by. */
+function countTotalsCte(): string {
+  return `count_totals as (
+  select c.*,
+         sum(events) filter (where version = '*' and dimension = '') over (partition by platform, event) as event_total,
+         sum(events) filter (where version <> '*' and dimension = '') over (partition by platform, version) as version_total,
+         sum(events) over (partition by platform, dimension, value) as value_total
+  from counted c
+)`;
+}
+
+/** Ranks of each row's event (kept events first), version and dimension value on its platform: most events first, then byte order. */
+function countRanksCte(p: Params, keep: string[]): string {
+  return `ranked as (
+  select t.*,
+         dense_rank() over (partition by platform order by event = any(${p.add(keep)}::text[]) desc, event_total desc, event) as event_rank,
+         case when version <> '*' and dimension = '' then dense_rank() over (partition by platform, version <> '*' and dimension = '' order by version_total desc, version) end as version_rank,
+         case when dimension <> '' then dense_rank() over (partition by platform, dimension order by value_total desc, value) end as value_rank
+  from count_totals t
+)`;
+}
+
+/** Distinct values per platform: the highest rank of each kind, named after its limit. */
+function seenCte(from: string, ranks: Array<'event_rank' | 'version_rank' | 'value_rank' | 'key_rank'>): string {
+  const names = { event_rank: 'event_names', version_rank: 'versions', value_rank: 'dimension_values', key_rank: 'param_keys' };
+  return `seen as (
+  select r.*, ${ranks.map((rank) => `max(${rank}) over (partition by platform) as ${names[rank]}`).join(', ')}
+  from ${from} r
+)`;
 }
 
 /** The named CTEs of `eventCountsQuery`. */
@@ -168,15 +207,33 @@ group by b.day, platform`;
  * known to have many distinct values: amounts, session ids) are counted but
  * their values are not grouped, which would cost a hash entry per row. Rows
  * are grouped first by the raw platform value; the mapping then runs once per
- * group.
+ * group. Within the row limits: per event and platform the keys, per
+ * platform the versions, with the most events (for versions: key
+ * occurrences); each row carries how many its platform had.
  */
 export function paramProfileQuery(mapping: WarehouseMapping, range: DayRange, events: string[], untrackedKeys: string[]): Query {
   const p = new Params();
   const parts = new ProfileParts(mapping, p);
+  const limits = limitsOf(mapping);
   const text = `
-with ${[parts.keyValuesCte(range, events, untrackedKeys), parts.rawGroupedCte(), parts.groupedCte(), parts.totalsCte(), parts.topsCte()].join(',\n')}
-${parts.profileRows()}`;
+with ${[parts.keyValuesCte(range, events, untrackedKeys), parts.rawGroupedCte(), parts.groupedCte(), parts.totalsCte(), parts.topsCte(), `profile as (\n${parts.profileRows()}\n)`, profileRanksCte(), seenCte('profile_ranked', ['key_rank', 'version_rank'])].join(',\n')}
+select event, platform, version, key, json_type, events, distinct_values, min_number, max_number, fractional, top_values, param_keys, versions
+from seen
+where key_rank <= ${p.add(limits.param_keys)} and version_rank <= ${p.add(limits.versions)}`;
   return { text, values: p.values };
+}
+
+/** Ranks of each profile row's key among its event's keys, and of its version, on its platform: most events first, then byte order. */
+function profileRanksCte(): string {
+  return `profile_ranked as (
+  select r.*,
+         dense_rank() over (partition by event, platform order by key_total desc, key) as key_rank,
+         dense_rank() over (partition by platform order by version_total desc, version) as version_rank
+  from (
+    select p.*, sum(events) over (partition by event, platform, key) as key_total, sum(events) over (partition by platform, version) as version_total
+    from profile p
+  ) r
+)`;
 }
 
 /** A JSON number as a double; one too small to be anything but 0 reads as 0, as ClickHouse reads it (PostgreSQL's cast refuses it). */

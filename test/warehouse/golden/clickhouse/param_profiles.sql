@@ -1,3 +1,13 @@
+select event, platform, version, key, json_type, events, distinct_values, min_number, max_number, fractional, top_values, param_keys, versions
+from (
+  select *, max(key_rank) over (partition by platform) as param_keys, max(version_rank) over (partition by platform) as versions
+  from (
+  select *,
+         dense_rank() over (partition by event, platform order by key_total desc, key) as key_rank,
+         dense_rank() over (partition by platform order by version_total desc, version) as version_rank
+  from (
+    select *, sum(events) over (partition by event, platform, key) as key_total, sum(events) over (partition by platform, version) as version_total
+    from (
 with kv as (
   select event, raw_platform, version, pair.1 as key, pair.2 as raw, multiIf(JSONType(raw) = 'String', 'string', JSONType(raw) in ('Int64', 'UInt64', 'Double'), 'number', JSONType(raw) = 'Bool', 'boolean', JSONType(raw) = 'Null', 'null', JSONType(raw) = 'Array', 'array', 'object') as json_type, multiIf(event = {p1:String}, not has({p2:Array(String)}, key), true) as tracked
   from (
@@ -26,5 +36,10 @@ select event, platform, version, key, json_type, sum(value_events) as events,
        if(min(tracked) and count(value) <= 50, arraySlice(arraySort(v -> (-v.events, v.value), groupArrayIf(CAST((assumeNotNull(value), value_events), 'Tuple(value String, events UInt64)'), value is not null)), 1, 12), []) as top_values
 from grouped
 group by event, platform, version, key, json_type
+    )
+  )
+  )
+)
+where key_rank <= {p9:UInt64} and version_rank <= {p10:UInt64}
 
--- values: {"p1":"pass_purchase_result","p2":["amount_cents"],"p3":"2026-03-08 05:00:00.000","p4":"2026-03-09 04:00:00.000","p5":["pass_purchase_result","zone_selected"],"p6":["web","Web","Android","iOS"],"p7":["web","web","android","ios"],"p8":"other"}
+-- values: {"p1":"pass_purchase_result","p2":["amount_cents"],"p3":"2026-03-08 05:00:00.000","p4":"2026-03-09 04:00:00.000","p5":["pass_purchase_result","zone_selected"],"p6":["web","Web","Android","iOS"],"p7":["web","web","android","ios"],"p8":"other","p9":200,"p10":500}

@@ -27,7 +27,8 @@ several_versions as (
   ) r
   where (event, platform, coalesce(person, '')) in (select event, platform, several from cells where several is not null)
   group by event, platform, version
-)
+),
+counted as (
 select event, platform, version, '' as dimension, '' as value, sum(n) as events, sum(people) as people
 from (
   select event, platform, version, n, people from cells where version is not null
@@ -37,5 +38,28 @@ group by event, platform, version
 union all select event, platform, '*', '', '', sum(n), sum(people) from cells group by event, platform
 union all select event, platform, '*', $17::text, d0, sum(n), sum(people) from cells group by event, platform, d0
 union all select event, platform, '*', $18::text, d1, sum(n), sum(people) from cells group by event, platform, d1
+),
+count_totals as (
+  select c.*,
+         sum(events) filter (where version = '*' and dimension = '') over (partition by platform, event) as event_total,
+         sum(events) filter (where version <> '*' and dimension = '') over (partition by platform, version) as version_total,
+         sum(events) over (partition by platform, dimension, value) as value_total
+  from counted c
+),
+ranked as (
+  select t.*,
+         dense_rank() over (partition by platform order by event = any($19::text[]) desc, event_total desc, event) as event_rank,
+         case when version <> '*' and dimension = '' then dense_rank() over (partition by platform, version <> '*' and dimension = '' order by version_total desc, version) end as version_rank,
+         case when dimension <> '' then dense_rank() over (partition by platform, dimension order by value_total desc, value) end as value_rank
+  from count_totals t
+),
+seen as (
+  select r.*, max(event_rank) over (partition by platform) as event_names, max(version_rank) over (partition by platform) as versions, max(value_rank) over (partition by platform) as dimension_values
+  from ranked r
+)
+select event, platform, version, dimension, value, events, people, event_names, versions, dimension_values
+from seen
+where (event_rank <= $20 or event = any($21::text[]))
+  and coalesce(version_rank, 1) <= $22 and coalesce(value_rank, 1) <= $23
 
--- values: ["2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other","country","channel"]
+-- values: ["2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",["web","Web"],"web",["Android"],"android",["iOS"],"ios","other","country","channel",[],5000,[],500,1000]

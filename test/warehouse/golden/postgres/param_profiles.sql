@@ -38,12 +38,30 @@ tops as (
   ) r
   where rank <= 12
   group by 1, 2, 3, 4, 5
-)
+),
+profile as (
 select t.event, t.platform, t.version, t.key, t.json_type, t.events,
        case when t.tracked then t.distinct_values end as distinct_values,
        t.min_number, t.max_number, t.fractional,
        case when t.tracked and t.distinct_values <= 50 then coalesce(tops.top_values, '[]'::jsonb) else '[]'::jsonb end as top_values
 from totals t
 left join tops using (event, platform, version, key, json_type)
+),
+profile_ranked as (
+  select r.*,
+         dense_rank() over (partition by event, platform order by key_total desc, key) as key_rank,
+         dense_rank() over (partition by platform order by version_total desc, version) as version_rank
+  from (
+    select p.*, sum(events) over (partition by event, platform, key) as key_total, sum(events) over (partition by platform, version) as version_total
+    from profile p
+  ) r
+),
+seen as (
+  select r.*, max(key_rank) over (partition by platform) as param_keys, max(version_rank) over (partition by platform) as versions
+  from profile_ranked r
+)
+select event, platform, version, key, json_type, events, distinct_values, min_number, max_number, fractional, top_values, param_keys, versions
+from seen
+where key_rank <= $13 and version_rank <= $14
 
--- values: ["pass_purchase_result",["amount_cents"],"2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["pass_purchase_result","zone_selected"],["web","Web"],"web",["Android"],"android",["iOS"],"ios","other"]
+-- values: ["pass_purchase_result",["amount_cents"],"2026-03-08T05:00:00.000Z","2026-03-09T04:00:00.000Z",["pass_purchase_result","zone_selected"],["web","Web"],"web",["Android"],"android",["iOS"],"ios","other",200,500]
