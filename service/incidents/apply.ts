@@ -177,7 +177,7 @@ const isRestatement = (finding: IncidentDraft['symptoms'][number]) => finding.ch
 
 /**
  * Drops the drafts that only say late rows restated past days whose
- * incidents the judgement again already closed as late data: those
+ * incidents of the same flow the judgement again already closed as late data: those
  * incidents' one resolution message says it, so the arrival day opens no
  * incident of its own (its findings stay recorded). A restatement that
  * closed nothing is the only trace of the late rows and stays a note.
@@ -185,13 +185,14 @@ const isRestatement = (finding: IncidentDraft['symptoms'][number]) => finding.ch
 async function withoutToldRestatements(client: pg.ClientBase, s: string, flows: readonly string[], drafts: IncidentDraft[]): Promise<IncidentDraft[]> {
   const days = [...new Set(drafts.flatMap((d) => d.symptoms.filter(isRestatement).map((f) => String(f.evidence?.restatedDay ?? ''))))].filter((d) => d !== '');
   if (days.length === 0) return drafts;
-  const { rows } = await client.query<{ day: Day }>({
-    text: `select distinct to_char(resolved_day, 'YYYY-MM-DD') as day from ${s}.incidents
-      where resolution = 'late_data' and flows && $1::text[] and resolved_day = any($2::date[])`,
+  // Per flow: another flow's closed incident told that flow's owner, not this one's.
+  const { rows } = await client.query<{ day: Day; flow: string }>({
+    text: `select distinct to_char(resolved_day, 'YYYY-MM-DD') as day, f as flow from ${s}.incidents, unnest(flows) as f
+      where resolution = 'late_data' and f = any($1::text[]) and resolved_day = any($2::date[])`,
     values: [flows, days],
   });
-  const told = new Set(rows.map((row) => row.day));
-  return drafts.filter((d) => !d.symptoms.every((f) => isRestatement(f) && told.has(String(f.evidence?.restatedDay))));
+  const told = new Set(rows.map((row) => `${row.day}|${row.flow}`));
+  return drafts.filter((d) => !d.symptoms.every((f) => isRestatement(f) && told.has(`${String(f.evidence?.restatedDay)}|${f.flow}`)));
 }
 
 /** Days within which a finding on the subject of a recent incident joins it instead of opening another (common practice: "a few days"). */

@@ -391,6 +391,14 @@ describe('applyIncidentDrafts', () => {
     expect((await incidents()).map((i) => [i.causeLabel, i.severity, i.openedDay])).toEqual([['data_delay', 'note', '2026-11-20']]);
   });
 
+  it('keeps the restatement note of a flow whose own incidents were not closed, when another flow had some closed', async () => {
+    const other = { ...draft({ day: '2026-11-18', fingerprint: `${SIGNUP.flow}|platform|intro|android|*`, subject: 'intro', version: '' }), flows: [SIGNUP.flow], owners: [SIGNUP.owner] };
+    await judgeFlows(db.pool, db.schema, '2026-11-18', [{ flow: FLOW, drafts: [] }, { flow: SIGNUP.flow, drafts: [other] }]);
+    await judgeFlows(db.pool, db.schema, '2026-11-18', [{ flow: FLOW, drafts: [] }, { flow: SIGNUP.flow, drafts: [] }], { lateRows: true, now: clockFor('2026-11-20') });
+    await judgeFlows(db.pool, db.schema, '2026-11-20', [{ flow: FLOW, drafts: [restatedDraft('2026-11-20', '2026-11-18')] }, { flow: SIGNUP.flow, drafts: [] }]);
+    expect((await incidents()).map((i) => [i.causeLabel, i.severity, i.openedDay])).toEqual([['data_delay', 'note', '2026-11-20']]);
+  });
+
   it('rejects drafts of another flow or day', async () => {
     await expect(day('2026-11-18', [draft({ day: '2026-11-17' })])).rejects.toThrow(/not monthly_pass on 2026-11-18/);
   });
